@@ -1,0 +1,97 @@
+"""radialpn's terminal front end. ``main(argv, console, out)`` runs one command and returns
+its exit code; ``console`` (rich) receives human-readable output and ``out`` machine-readable
+output (JSON, CSV), so tests can render both to strings."""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+
+from . import _errors
+
+__all__ = ["main", "build_parser"]
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors (no usage dump) that name the command's --help."""
+
+    def error(self, message):
+        raise _errors.UsageError(f"{message} (see `{self.prog} --help`)")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    from surrogate._statistics import STATISTICS
+
+    from ._designargs import add_design_flags
+    from ._engines import DEFAULT_ENGINE, ENGINES
+
+    p = _Parser(prog="radialpn", description="Depletion regime and built-in potential of core-shell "
+                "(radial p-n) nanowires. Answers are design estimates, not measurements.")
+    p.add_argument("--materials", metavar="FILE", action="append", default=[],
+                   help="add materials from a TOML or JSON file (repeatable)")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    def engine_flags(sp):
+        sp.add_argument("--engine", choices=sorted(ENGINES), default=DEFAULT_ENGINE, help="which engine answers")
+        sp.add_argument("--statistics", choices=STATISTICS, default="fermi-dirac",
+                        help="carrier statistics for the bulk Fermi levels (default fermi-dirac)")
+
+    ask = sub.add_parser("ask", help="regime and built-in potential of one design")
+    add_design_flags(ask)
+    engine_flags(ask)
+    ask.add_argument("--json", action="store_true", help="print one JSON row (design-table columns)")
+
+    batch = sub.add_parser("batch", help="answer every row of a CSV design table")
+    batch.add_argument("input", metavar="IN.csv", help="CSV with design-table columns (extra columns kept)")
+    batch.add_argument("-o", "--output", metavar="OUT.csv", help="where to write (default: standard output)")
+    engine_flags(batch)
+
+    mats = sub.add_parser("materials", help="the material table with sources")
+    mats.add_argument("--json", action="store_true", help="print JSON keyed by material name")
+    mats.add_argument("--temperature", default="300", metavar="K", help="temperature (default 300 K)")
+
+    demo = sub.add_parser("demo", help="a walk through radialpn on an invented growth plan")
+    demo.add_argument("--statistics", choices=STATISTICS, default="fermi-dirac", help=argparse.SUPPRESS)
+    return p
+
+
+def main(argv=None, console=None, out=None) -> int:
+    """Run ``radialpn`` with ``argv`` (default: sys.argv[1:]); return the exit code."""
+    from rich.console import Console
+
+    import surrogate
+
+    out = out if out is not None else sys.stdout
+    err_console = Console(stderr=True, highlight=False) if console is None else console
+    try:
+        args = build_parser().parse_args(argv)
+        for path in args.materials:
+            for m in surrogate.load_material_file(path):
+                surrogate.register_material(m)
+        if args.command is None:
+            build_parser().print_help(out)
+            return _errors.OK
+        if console is None:
+            to_stdout_machine = args.command == "batch" and args.output in (None, "-")
+            console = err_console if to_stdout_machine else Console(highlight=False)
+        from . import _commands, _demo
+
+        handler = {"ask": _commands.cmd_ask, "batch": _commands.cmd_batch,
+                   "materials": _commands.cmd_materials, "demo": _demo.cmd_demo}[args.command]
+        return handler(args, console, out)
+    except _errors.UsageError as exc:
+        err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, soft_wrap=True)
+        return _errors.BAD_INPUT
+    except surrogate.RadialpnError as exc:
+        err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, soft_wrap=True)
+        return _errors.BAD_INPUT
+    except KeyboardInterrupt:
+        err_console.print("radialpn: interrupted", markup=False)
+        return _errors.INTERRUPTED
+    except Exception as exc:  # a bug: one line, traceback only on request
+        if os.environ.get("RADIALPN_DEBUG"):
+            raise
+        err_console.print(f"radialpn: internal error: {type(exc).__name__}: {exc} (set RADIALPN_DEBUG=1 for "
+                          "the traceback, and please report it)", markup=False, highlight=False, soft_wrap=True)
+        return _errors.INTERNAL

@@ -1,0 +1,142 @@
+"""The design commands: ask, batch, materials. Thin: parse, call the library, render."""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+import os
+import tempfile
+
+import numpy as np
+from rich.panel import Panel
+from rich.table import Table
+
+import surrogate
+from surrogate import INPUT_COLUMNS, normalize_designs
+
+from . import _engines, _errors
+from ._designargs import design_from_args, flag_hint
+from ._render import CAUTION, answer_table, design_line
+
+EXTRA_OUTPUTS = ("core_margin", "shell_margin", "junction_edge_nm")
+
+
+def _row(table, out, i) -> dict:
+    row = {"material": table.material[i], "core_type": "p" if table.p_core[i] else "n"}
+    for k, v in table.values.items():
+        row[k] = float(v[i])
+    for k, v in out.items():
+        x = v[i]
+        row[k] = float(x) if isinstance(x, (float, np.floating)) else (x.item() if hasattr(x, "item") else x)
+    return row
+
+
+def _json_value(x):
+    return None if isinstance(x, float) and math.isnan(x) else x
+
+
+def cmd_ask(args, console, out) -> int:
+    design = design_from_args(args)
+    table = normalize_designs({k: [v] for k, v in design.items()})
+    if table.status[0] != "ok":
+        raise _errors.UsageError(flag_hint(str(table.status[0])))
+    result = _engines.run(args.engine, table, args.statistics)
+    # the material's default neutral level, shown explicitly
+    mat = surrogate.get_material(table.material[0])
+    if math.isnan(table.values["cnl_eV"][0]):
+        table.values["cnl_eV"][0] = mat.cnl_eV
+    row = _row(table, result, 0)
+    if args.json:
+        out.write(json.dumps({k: _json_value(v) for k, v in row.items()}, indent=2) + "\n")
+        return _errors.OK if row["status"] == "ok" else _errors.NO_ANSWER
+    console.print(Panel.fit(design_line(row), title=f"radialpn · {args.engine} engine · {args.statistics}",
+                            border_style="#5b8def"))
+    if row["status"] != "ok":
+        console.print(f"[bold #d9534f]no answer:[/] {row['status']}")
+        return _errors.NO_ANSWER
+    console.print(answer_table(row))
+    console.print(f"[dim]{CAUTION}[/]")
+    return _errors.OK
+
+
+def _fmt_cell(x) -> str:
+    if isinstance(x, (float, np.floating)):
+        return "" if math.isnan(x) else repr(float(x))
+    return "" if x is None else str(x)
+
+
+def cmd_batch(args, console, out) -> int:
+    try:
+        with open(args.input, newline="", encoding="utf-8-sig") as fh:
+            reader = csv.DictReader(fh)
+            rows = list(reader)
+            fields = list(reader.fieldnames or [])
+    except OSError as exc:
+        raise _errors.UsageError(f"{args.input}: cannot read ({exc.strerror})") from None
+    except csv.Error as exc:
+        raise _errors.UsageError(f"{args.input}: not a readable CSV file ({exc})") from None
+    if not fields:
+        raise _errors.UsageError(f"{args.input}: empty file (expected a header row with design-table columns)")
+    missing = [c for c in ("material", "core_type", "core_radius_nm") if c not in fields]
+    if len(missing) == 3:
+        raise _errors.UsageError(f"{args.input}: no design-table columns in the header (expected e.g. "
+                                 f"{', '.join(INPUT_COLUMNS[:4])})")
+    designs = {c: [r.get(c) for r in rows] for c in INPUT_COLUMNS if c in fields}
+    table = normalize_designs(designs) if rows else None
+    result = _engines.run(args.engine, table, args.statistics) if rows else {}
+    out_cols = [c for c in surrogate.OUTPUT_COLUMNS + EXTRA_OUTPUTS if c in result or not rows]
+    header = fields + [c for c in out_cols if c not in fields]
+    target = args.output
+    if target in (None, "-"):
+        _write_csv(out, header, rows, result, out_cols)
+    else:
+        d = os.path.dirname(os.path.abspath(target))
+        fd, tmp = tempfile.mkstemp(prefix=".radialpn-", suffix=".csv", dir=d)
+        try:
+            with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
+                _write_csv(fh, header, rows, result, out_cols)
+            os.replace(tmp, target)  # never leave a half-written output
+        except BaseException:
+            os.unlink(tmp)
+            raise
+    if rows:
+        status = result["status"]
+        good = int((status == "ok").sum())
+        counts = {r: int((result["regime"] == r).sum()) for r in surrogate.REGIMES}
+        summary = ", ".join(f"{n} {r}" for r, n in counts.items() if n)
+        console.print(f"[dim]{len(rows)} rows · {good} answered ({summary}) · {len(rows) - good} with a reason "
+                      f"in status · engine {args.engine}[/]")
+    return _errors.OK
+
+
+def _write_csv(fh, header, rows, result, out_cols):
+    w = csv.writer(fh, lineterminator="\n")
+    w.writerow(header)
+    for i, r in enumerate(rows):
+        extra = {c: _fmt_cell(result[c][i]) for c in out_cols}
+        w.writerow([extra[c] if c in extra else r.get(c, "") for c in header])
+
+
+def cmd_materials(args, console, out) -> int:
+    t = args.temperature
+    try:
+        t = surrogate.parse_quantity("temperature_K", t)
+    except surrogate.DesignError as exc:
+        raise _errors.UsageError(str(exc)) from None
+    if not 20.0 <= t <= 1000.0:
+        raise _errors.UsageError(f"temperature_K: allowed range [20, 1000] (got {t:g})")
+    data = {name: surrogate.get_material(name).at(t) for name in surrogate.material_names()}
+    if args.json:
+        out.write(json.dumps(data, indent=2) + "\n")
+        return _errors.OK
+    table = Table(title=f"Material table at {t:g} K", title_justify="left")
+    for col in ("material", "E_g [eV]", "eps_r", "N_c [cm⁻³]", "N_v [cm⁻³]", "E_cnl [eV]"):
+        table.add_column(col, justify="right" if col != "material" else "left")
+    for name, row in data.items():
+        table.add_row(name, f"{row['band_gap_eV']:.4f}", f"{row['permittivity_rel']:g}", f"{row['nc_cm3']:.3g}",
+                      f"{row['nv_cm3']:.3g}", f"{row['cnl_eV']:.3g}")
+    console.print(table)
+    console.print("[dim]Sources: `radialpn materials --json` lists the source of every value.[/]")
+    return _errors.OK
+

@@ -1,0 +1,83 @@
+"""Rich rendering of design answers. Everything draws onto a console passed in, so tests can
+render to a string."""
+
+from __future__ import annotations
+
+import math
+
+from rich.table import Table
+from rich.text import Text
+
+#: regime -> (style, glyph, plain-words meaning)
+REGIME_STYLE = {
+    "both-neutral": ("bold #3aa876", "■", "core and shell both keep a neutral region"),
+    "core-depleted": ("bold #e0a526", "◧", "the core is fully depleted, the shell keeps a neutral region"),
+    "shell-depleted": ("bold #b46fd1", "◨", "the shell is fully depleted, the core keeps a neutral region"),
+    "all-depleted": ("bold #d9534f", "□", "core and shell are both fully depleted"),
+}
+CAUTION = ("Design estimate, not a measurement: confirm the design with measurements on grown "
+           "wires before committing a growth campaign.")
+
+
+def regime_text(regime: str) -> Text:
+    style, glyph, _ = REGIME_STYLE.get(regime, ("bold", "?", ""))
+    return Text(f"{glyph} {regime}", style=style)
+
+
+def fmt(x, unit: str = "", digits: int = 4) -> str:
+    if x is None or (isinstance(x, float) and math.isnan(x)):
+        return "—"
+    return f"{x:.{digits}g} {unit}".rstrip()
+
+
+def cross_section(row: dict, width: int = 48) -> Text:
+    """A strip from the axis (left) to the surface (right): solid where neutral, light where
+    depleted; core and shell in their own colours; '|' at the junction."""
+    a = float(row["core_radius_nm"])
+    R = a + float(row["shell_thickness_nm"])
+    rp = float(row["core_neutral_radius_nm"])
+    sn = float(row["shell_neutral_nm"])
+    # the shell's neutral slab lies between the junction and surface depletions; place it from
+    # the bending share (the front end does not know r_n, r_s separately; it shows thickness)
+    junction_edge = row.get("junction_edge_nm")
+    start = float(junction_edge) if junction_edge is not None else a + 0.5 * (R - a - sn)
+    text = Text()
+    for i in range(width):
+        r = (i + 0.5) / width * R
+        if r < a:
+            text.append("█" if r < rp else "░", style="#5b8def")
+        else:
+            if abs(r - a) < 0.5 * R / width:
+                text.append("|", style="bold white")
+                continue
+            text.append("█" if start <= r < start + sn else "░", style="#e8803a")
+    return text
+
+
+def answer_table(row: dict) -> Table:
+    """The what-you-get table for one answered design."""
+    t = Table(show_header=False, box=None, pad_edge=False)
+    t.add_column(style="dim", no_wrap=True)
+    t.add_column()
+    regime = row["regime"]
+    t.add_row("regime", Text.assemble(regime_text(regime), "  ", Text(REGIME_STYLE[regime][2], style="italic")))
+    kept = row["vbi_V"] / row["vbi0_V"] if row["vbi0_V"] else float("nan")
+    t.add_row("built-in potential V_bi", Text.assemble((fmt(row["vbi_V"], "V"), "bold"),
+                                                       f"   ({kept:.1%} of the bulk V_bi0)"))
+    t.add_row("bulk V_bi0", fmt(row["vbi0_V"], "V"))
+    t.add_row("core neutral radius", f"{fmt(row['core_neutral_radius_nm'], 'nm')} of {fmt(row['core_radius_nm'], 'nm')}")
+    t.add_row("shell neutral thickness", f"{fmt(row['shell_neutral_nm'], 'nm')} of {fmt(row['shell_thickness_nm'], 'nm')}")
+    t.add_row("surface band bending", fmt(row["surface_bending_V"], "V"))
+    if "core_margin" in row:
+        t.add_row("boundary margins", f"core {row['core_margin']:+.3f}, shell {row['shell_margin']:+.3f}"
+                  "  (>0 keeps a neutral region; 0 is the regime boundary)")
+    t.add_row("cross-section", Text.assemble(cross_section(row), Text("  axis → surface", style="dim")))
+    return t
+
+
+def design_line(row: dict) -> str:
+    shell = "n" if row["core_type"] == "p" else "p"
+    return (f"{row['material']} {row['core_type']}-core/{shell}-shell · core {row['core_radius_nm']:g} nm "
+            f"({row['core_doping_cm3']:.2g} cm⁻³) · shell {row['shell_thickness_nm']:g} nm "
+            f"({row['shell_doping_cm3']:.2g} cm⁻³) · D_it {row['dit_cm2eV']:.2g} cm⁻²eV⁻¹ · "
+            f"E_cnl {row['cnl_eV']:.3g} eV · {row['temperature_K']:g} K")

@@ -1,0 +1,296 @@
+"""Depletion-approximation engine for radial p-n nanowires: the four-regime analytic model of
+../shared/design/physics.md section 4, vectorised over arrays of designs.
+
+Geometry and charges (p-core/n-shell; an n-core design is solved as its mirror image):
+core 0 <= r < a of acceptors N_A, shell a <= r <= R of donors N_D, surface states D_it about
+the neutral level E_cnl at r = R. In a uniformly charged cylinder region whose field vanishes at
+r0, psi(r1) - psi(r0) = -(q N / 4 eps) [r1^2 - r0^2 - 2 r0^2 ln(r1/r0)] (Gauss's law in a
+cylinder; Jackson, Classical Electrodynamics, 3rd ed., sec. 1.3). With u = r_p^2/a^2,
+w = r_n^2/a^2, v = r_s^2/R^2 and h(x) = 1 - x + x ln x the balances become
+
+  junction   K a^2 [N_A h(u) + N_D h(w)] = V_bi0,   w = 1 + (N_A/N_D)(1 - u)
+  surface    N_D R (1 - v)/2 = D_it [phi_0 - K N_D R^2 h(v)],   phi_0 = E_g - delta_n - E_cnl
+  coupled    N_D a^2 (R^2/a^2 - w)/(2R) = D_it [delta_p + psi_R(u) - E_cnl]
+             psi_R = K a^2 [N_A h(u) - N_D (R^2/a^2 - 1 - w ln(R^2/a^2))]
+
+with K = q/(4 eps), delta_p = E_F - E_v in the neutral core, delta_n = E_c - E_F in the neutral
+shell, and V_bi0 = E_g - delta_p - delta_n (Sze & Ng, Physics of Semiconductor Devices, 3rd
+ed., 2007, sec. 2.2, eq. 2.10 in the Boltzmann limit). Each balance is monotone in its unknown
+and is solved by a vectorised safeguarded Newton iteration (``_roots``).
+
+Regimes: junction and surface solved alone; if the junction's shell edge r_n lies inside the
+surface's edge r_s they do not interact (regime both-neutral, or core-depleted when the junction
+alone empties the core). Otherwise the shell has no neutral region and the coupled balance fixes
+r_p (shell-depleted), or the core empties too (all-depleted).
+V_bi = max over the shell of psi - min over the core of psi.
+"""
+
+from __future__ import annotations
+
+import os
+from concurrent.futures import ThreadPoolExecutor
+
+import numpy as np
+
+from ._constants import CM2_TO_M2, CM3_TO_M3, EPS0, K_B_EV, NM, Q
+from ._design import REGIMES, DesignTable, _categories, normalize_designs
+from ._materials import get_material
+from ._roots import solve_bracketed
+from ._statistics import check_statistics, reduced_level
+
+_TINY = 1e-300
+
+
+def _h(x):
+    """h(x) = 1 - x + x ln x [1]; h(0) = 1, h(1) = 0, h'(x) = ln x."""
+    return 1.0 - x + x * np.log(np.maximum(x, _TINY))
+
+
+def _ln(x):
+    return np.log(np.maximum(x, _TINY))
+
+
+def material_arrays(material, temperature_K, statistics="fermi-dirac", core_doping_cm3=None,
+                    shell_doping_cm3=None, p_core=None):
+    """Per-row material constants at temperature: E_g [eV], eps_r [1], N_c, N_v [cm^-3],
+    default neutral level [eV], kT [eV]. ``material`` is an array of canonical names."""
+    t = np.asarray(temperature_K, dtype=float)
+    n = t.size
+    out = {k: np.empty(n) for k in ("band_gap_eV", "permittivity_rel", "nc_cm3", "nv_cm3", "cnl_eV")}
+    names, inv = _categories(material, n)
+    for k, name in enumerate(names):
+        sel = inv == k
+        if not name:
+            for v in out.values():
+                v[sel] = np.nan
+            continue
+        m = get_material(name)
+        out["band_gap_eV"][sel] = m.band_gap(t[sel])
+        out["permittivity_rel"][sel] = m.permittivity_rel
+        out["nc_cm3"][sel] = m.nc(t[sel])
+        out["nv_cm3"][sel] = m.nv(t[sel])
+        out["cnl_eV"][sel] = m.cnl_eV
+    out["kT_eV"] = K_B_EV * t
+    return out
+
+
+def bulk_levels(doping_cm3, dos_cm3, kt_eV, statistics):
+    """Distance [eV] from the Fermi level to the majority band edge in neutral material of
+    full ionisation: E_c - E_F (n-type, with N_c) or E_F - E_v (p-type, with N_v).
+    Negative when degenerate. Sze & Ng, 3rd ed., eq. 1.23 (Boltzmann) and 1.16 (F_1/2)."""
+    return -kt_eV * reduced_level(doping_cm3, dos_cm3, statistics)
+
+
+def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
+    """Solve p-core/n-shell designs (all SI: m^-3, m, F/m, eV, m^-2 eV^-1) with the depletion
+    approximation. Returns a dict of internal arrays (see ``_outputs``)."""
+    K = Q / (4.0 * eps)  # [V m]: a potential is K * N [m^-3] * r^2 [m^2]
+    vbi0 = Eg - dp - dn
+    phi0 = Eg - dn - Ecnl
+    ratio = NA / ND
+    rho = (R / a) ** 2
+    lnrho = np.log(rho)
+    Ka2 = K * a * a
+    zero, one = np.zeros_like(a), np.ones_like(a)
+
+    # junction alone; unknown q = 1 - u (core depletion fraction), f increasing in q
+    pj = dict(A=Ka2 * NA, B=Ka2 * ND, ratio=ratio, vbi0=vbi0)
+
+    def fj(q, p):
+        u, w = 1.0 - q, 1.0 + p["ratio"] * q
+        return p["A"] * _h(u) + p["B"] * _h(w) - p["vbi0"], p["A"] * (_ln(w) - _ln(u))
+
+    fj1, _ = fj(one, pj)
+    u_j = zero.copy()  # core emptied by the junction alone where fj(1) <= 0
+    i = np.flatnonzero(fj1 > 0.0)
+    pj = {k: v[i] for k, v in pj.items()}
+    q0 = np.sqrt(2.0 * np.maximum(pj["vbi0"], 0.0) / (pj["A"] * (1.0 + pj["ratio"])))  # planar limit
+    q_j, it_j = solve_bracketed(fj, pj, zero[i], one[i], True, x0=np.minimum(q0, 0.999))
+    u_j[i] = 1.0 - q_j
+    w_j = 1.0 + ratio * (1.0 - u_j)
+
+    # surface alone; unknown q = 1 - v (surface depletion fraction of R^2), f increasing in q
+    ps = dict(L=ND * R / 2.0, D=Dit, phi0=phi0, C=K * ND * R * R)
+
+    def fs(q, p):
+        v = 1.0 - q
+        return p["L"] * q - p["D"] * (p["phi0"] - p["C"] * _h(v)), p["L"] - p["D"] * p["C"] * _ln(v)
+
+    fs1, _ = fs(one, ps)
+    v_s = zero.copy()  # surface alone would empty the whole wire where fs(1) <= 0
+    i = np.flatnonzero(fs1 > 0.0)
+    ps = {k: v[i] for k, v in ps.items()}
+    b, pos = ps["L"], np.maximum(ps["phi0"], 0.0)
+    q0 = 2.0 * ps["D"] * pos / (b + np.sqrt(b * b + 2.0 * ps["D"] ** 2 * ps["C"] * pos))  # h(1-q) ~ q^2/2
+    q_s, it_s = solve_bracketed(fs, ps, zero[i], one[i], True, x0=np.minimum(q0, 0.999))
+    v_s[i] = 1.0 - q_s
+    r_n = a * np.sqrt(w_j)
+    r_s = R * np.sqrt(v_s)
+    coupled = r_n >= r_s
+
+    # coupled (shell fully depleted); unknown s = r_p/a (u = s^2 keeps the slope finite at
+    # s = 0), f increasing in s. Solved only for the coupled rows.
+    def psi_R(u, w, p):
+        return p["A"] * _h(u) - p["B"] * (p["rho"] - 1.0 - w * p["lnrho"])
+
+    def fc(s, p):
+        u = s * s
+        w = 1.0 + p["ratio"] * (1.0 - u)
+        f = p["S"] * (p["rho"] - w) - p["D"] * (p["dp"] + psi_R(u, w, p) - p["Ecnl"])
+        df = 2.0 * s * (p["S"] * p["ratio"] - p["D"] * p["A"] * (_ln(u) - p["lnrho"]))
+        return f, df
+
+    c = np.flatnonzero(coupled)
+    pc = dict(A=Ka2 * NA, B=Ka2 * ND, ratio=ratio, rho=rho, lnrho=lnrho, S=ND * a * a / (2.0 * R),
+              D=Dit, dp=dp, Ecnl=Ecnl)
+    pc = {k: v[c] for k, v in pc.items()}
+    fc0, _ = fc(zero[c], pc)
+    fc1, _ = fc(one[c], pc)
+    overcharged = np.zeros_like(coupled)
+    overcharged[c] = fc1 < 0.0
+    u = u_j.copy()
+    u[c] = 0.0  # core emptied too where fc(0) >= 0
+    interior = fc0 < 0.0
+    c = c[interior]
+    pc = {k: v[interior] for k, v in pc.items()}
+    s_c, it_c = solve_bracketed(fc, pc, zero[c], one[c], True, x0=np.sqrt(u_j[c]))
+    u[c] = s_c * s_c
+    w = 1.0 + ratio * (1.0 - u)
+    return dict(K=K, vbi0=vbi0, phi0=phi0, u=u, w=w, v=v_s, r_n=r_n, r_s=r_s, coupled=coupled,
+                overcharged=overcharged, rho=rho,
+                psi_R=psi_R(u, w, dict(A=Ka2 * NA, B=Ka2 * ND, rho=rho, lnrho=lnrho)),
+                iterations=np.array([it_j.max(initial=0), it_s.max(initial=0), it_c.max(initial=0)]),
+                mean_iterations=np.array([it_j.mean() if it_j.size else 0, it_s.mean() if it_s.size else 0,
+                                          it_c.mean() if it_c.size else 0]))
+
+
+def _outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None):
+    """Output columns (SI lengths) and margins from the internal solution ``s``."""
+    K, u, w, coupled = s["K"], s["u"], s["w"], s["coupled"]
+    vbi0 = s["vbi0"]
+    Ka2 = K * a * a
+    core_neutral = u > 0.0
+    # decoupled: V_bi = V_bi0 if the core keeps a neutral region, else the junction's full-core value
+    vbi_dec = np.where(core_neutral, vbi0, Ka2 * (NA * _h(u) + ND * _h(w)))
+    bend_dec = K * ND * R * R * _h(s["v"])
+    # coupled: potential maximum of the shell at r_m = min(r_0, R), frame psi = 0 at core neutral/axis
+    xm = np.minimum(w, s["rho"])  # r_m^2 / a^2
+    psi_m = Ka2 * (NA * _h(u) - ND * (xm - 1.0 - w * _ln(xm)))
+    vbi = np.where(coupled, psi_m, vbi_dec)
+    bending = np.where(coupled, psi_m - s["psi_R"], bend_dec)
+    regime = np.where(coupled, np.where(core_neutral, 2, 3), np.where(core_neutral, 0, 1))
+    # continuous margins, positive where the region keeps a neutral part
+    with np.errstate(divide="ignore", invalid="ignore"):
+        qs = ND * a * a * (s["rho"] - w) / (2.0 * R) / Dit  # E_F - E_cnl at the surface [eV]
+        fermi_minus_ev_R = Ecnl + qs  # E_F - E_v(R), frame psi(0) = 0 when the core is empty
+        dc_all = fermi_minus_ev_R - s["psi_R"] - dp
+        ds_all = Eg - (fermi_minus_ev_R + psi_m - s["psi_R"]) - dn
+    dc = np.where(coupled, dc_all, vbi0 - vbi)
+    ds = np.where(core_neutral, vbi0 - vbi, ds_all)
+    t = R - a
+    core_margin = np.where(core_neutral, np.sqrt(u), -np.sqrt(np.maximum(dc, 0.0) / (K * NA * a * a)))
+    shell_margin = np.where(coupled, -np.sqrt(np.maximum(ds, 0.0) / (K * ND * t * t)), (s["r_s"] - s["r_n"]) / t)
+    return dict(regime_code=regime, vbi_V=vbi, vbi0_V=vbi0, core_neutral_radius_m=a * np.sqrt(u),
+                junction_edge_m=np.where(coupled, a * np.sqrt(xm), s["r_n"]),
+                shell_neutral_m=np.where(coupled, 0.0, s["r_s"] - s["r_n"]), surface_bending_V=bending,
+                core_margin=core_margin, shell_margin=shell_margin, surface_barrier_V=s["phi0"])
+
+
+def _prepare(table: DesignTable, statistics: str):
+    """SI arrays of the mirrored p-core problem for every row of a validated table."""
+    v = table.values
+    mat = material_arrays(table.material, v["temperature_K"], statistics)
+    p = table.p_core
+    Eg, kt = mat["band_gap_eV"], mat["kT_eV"]
+    cnl = np.where(np.isnan(v["cnl_eV"]), mat["cnl_eV"], v["cnl_eV"])
+    core_dos = np.where(p, mat["nv_cm3"], mat["nc_cm3"])
+    shell_dos = np.where(p, mat["nc_cm3"], mat["nv_cm3"])
+    ok = table.ok
+    safe = lambda x, fill: np.where(ok, x, fill)  # noqa: E731  keep invalid rows finite
+    dp = bulk_levels(safe(v["core_doping_cm3"], 1e17), safe(core_dos, 1e18), safe(kt, 0.025), statistics)
+    dn = bulk_levels(safe(v["shell_doping_cm3"], 1e17), safe(shell_dos, 1e18), safe(kt, 0.025), statistics)
+    a = safe(v["core_radius_nm"], 50.0) * NM
+    return dict(
+        NA=safe(v["core_doping_cm3"], 1e17) * CM3_TO_M3, ND=safe(v["shell_doping_cm3"], 1e17) * CM3_TO_M3,
+        a=a, R=a + safe(v["shell_thickness_nm"], 50.0) * NM,
+        eps=safe(mat["permittivity_rel"], 12.0) * EPS0, Eg=safe(Eg, 1.0), dp=dp, dn=dn,
+        Dit=safe(v["dit_cm2eV"], 0.0) * CM2_TO_M2, Ecnl=safe(np.where(p, cnl, Eg - cnl), 0.5),
+    ), cnl
+
+
+def _row_status(table: DesignTable, prob, sol, out, cnl):
+    status = table.status.copy()
+
+    def fail(mask, text):
+        sel = mask & (status == "ok")
+        status[sel] = text if isinstance(text, str) else text[sel]
+
+    fail(table.values["interlayer_nm"] > 0, "interlayer_nm: the depletion engine has no interlayer; use the solver engine")
+    fail(sol["vbi0"] <= 0, "no built-in potential: these dopings give V_bi0 <= 0")
+    acc = (prob["Dit"] > 0) & (sol["phi0"] < 0)
+    if acc.any():
+        fail(acc, np.array([f"surface accumulates: neutral level {c:.3g} eV lies past the shell's Fermi level; "
+                            "outside the depletion model" for c in cnl], dtype=object))
+    fail(sol["overcharged"], "surface states hold more charge than the depleted shell; outside the depletion model")
+    finite = np.isfinite(out["vbi_V"]) & np.isfinite(out["surface_bending_V"]) & np.isfinite(out["core_margin"])
+    fail(~finite, "depletion engine: no finite solution")
+    return status
+
+
+CHUNK_ROWS = 1 << 16  #: rows per work unit: keeps temporaries in cache
+THREADS = min(os.cpu_count() or 1, 8)  #: worker threads for large batches (numpy frees the GIL)
+
+
+def _deplete_table(table: DesignTable, statistics: str) -> dict:
+    prob, cnl = _prepare(table, statistics)
+    with np.errstate(all="ignore"):
+        sol = solve_pcore(**prob)
+        out = _outputs(sol, **prob)
+    status = _row_status(table, prob, sol, out, cnl)
+    good = status == "ok"
+    nan = np.nan
+    names = np.array(REGIMES + ("",), dtype=object)
+    return {
+        "regime": names[np.where(good, out["regime_code"], 4)],
+        "vbi_V": np.where(good, out["vbi_V"], nan),
+        "vbi0_V": np.where(good, out["vbi0_V"], nan),
+        "core_neutral_radius_nm": np.where(good, out["core_neutral_radius_m"] / NM, nan),
+        "shell_neutral_nm": np.where(good, out["shell_neutral_m"] / NM, nan),
+        "surface_bending_V": np.where(good, out["surface_bending_V"], nan),
+        "engine": np.full(table.n, "depletion", dtype=object),
+        "status": status,
+        "core_margin": np.where(good, out["core_margin"], nan),
+        "shell_margin": np.where(good, out["shell_margin"], nan),
+        "surface_barrier_V": np.where(good, out["surface_barrier_V"], nan),
+        "junction_edge_nm": np.where(good, out["junction_edge_m"] / NM, nan),
+    }
+
+
+def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None) -> dict:
+    """Regime and built-in potential of each design by the depletion approximation.
+
+    ``designs``: mapping of design-table column -> array or scalar, a list of row dicts, or a
+    pandas DataFrame (interface.md names and units). ``statistics``: ``"fermi-dirac"`` or
+    ``"boltzmann"`` for the bulk Fermi levels. ``threads``: worker threads for large batches
+    (default: ``THREADS``). Returns a mapping of the output columns of interface.md (numpy
+    arrays, one entry per input row, NaN and regime "" where ``status`` is not "ok") plus
+    continuous boundary margins: ``core_margin`` (r_p/a where the core keeps a neutral region;
+    below zero, -sqrt(dV / (q N a^2 / 4 eps)) where it is emptied with its potential dV short
+    of neutral), ``shell_margin`` (neutral thickness over shell thickness, likewise extended
+    below zero), ``surface_barrier_V`` (the surface barrier at full pinning) and
+    ``junction_edge_nm`` (radius where the junction's depletion of the shell ends, or the
+    shell's potential extremum when the shell is fully depleted).
+    """
+    statistics = check_statistics(statistics)
+    table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
+    if table.n <= CHUNK_ROWS:
+        return _deplete_table(table, statistics)
+    parts = [slice(i, min(i + CHUNK_ROWS, table.n)) for i in range(0, table.n, CHUNK_ROWS)]
+    work = lambda sl: _deplete_table(table.take(sl), statistics)  # noqa: E731
+    nthreads = THREADS if threads is None else max(1, int(threads))
+    if nthreads > 1:
+        with ThreadPoolExecutor(nthreads) as pool:
+            results = list(pool.map(work, parts))
+    else:
+        results = [work(sl) for sl in parts]
+    return {k: np.concatenate([r[k] for r in results]) for k in results[0]}

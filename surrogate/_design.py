@@ -1,0 +1,257 @@
+"""The design table (../shared/design/interface.md): column names, defaults, allowed ranges,
+unit-suffix parsing, and the one validation layer every entry point (API, CLI, files) uses.
+
+``normalize_designs`` turns a mapping of column -> array (or a list of row dicts, or a pandas
+DataFrame) into a ``DesignTable`` of float arrays plus one status per row: ``"ok"`` or a
+one-line reason naming the field, the allowed range and the value given. Rows are never
+dropped. ``check_design`` does the same for one design and raises ``DesignError`` instead.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from ._errors import DesignError, MaterialError
+from ._materials import get_material
+
+INPUT_COLUMNS = (
+    "material", "core_type", "core_radius_nm", "shell_thickness_nm", "core_doping_cm3",
+    "shell_doping_cm3", "dit_cm2eV", "cnl_eV", "temperature_K", "interlayer_nm",
+)
+OUTPUT_COLUMNS = (
+    "regime", "vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
+    "surface_bending_V", "engine", "status",
+)
+SURROGATE_COLUMNS = ("regime_prob", "vbi_low_V", "vbi_high_V", "in_domain")
+REGIMES = ("both-neutral", "core-depleted", "shell-depleted", "all-depleted")
+CORE_TYPES = ("p", "n")
+
+#: numeric column -> (low, high, default or None if required, unit table key)
+NUMERIC = {
+    "core_radius_nm": (1.0, 1.0e5, None, "length"),
+    "shell_thickness_nm": (0.5, 1.0e5, None, "length"),
+    "core_doping_cm3": (1.0e12, 1.0e21, None, "density"),
+    "shell_doping_cm3": (1.0e12, 1.0e21, None, "density"),
+    "dit_cm2eV": (0.0, 1.0e17, None, "dit"),
+    "cnl_eV": (-1.0, 10.0, math.nan, "energy"),  # NaN default: the material's own
+    "temperature_K": (20.0, 1000.0, 300.0, "temperature"),
+    "interlayer_nm": (0.0, 1.0e4, 0.0, "length"),
+}
+
+#: unit suffix (lower case, spaces, '^' and '/' removed) -> factor to the column's unit
+UNITS = {
+    "length": {"": 1.0, "nm": 1.0, "um": 1e3, "µm": 1e3, "μm": 1e3, "micron": 1e3, "mm": 1e6, "a": 0.1, "å": 0.1},
+    "density": {"": 1.0, "cm-3": 1.0, "cm3": 1.0, "percm3": 1.0, "m-3": 1e-6},
+    "dit": {"": 1.0, "cm-2ev-1": 1.0, "cm2ev": 1.0, "cm-2": 1.0, "percm2ev": 1.0},
+    "energy": {"": 1.0, "ev": 1.0, "mev": 1e-3, "v": 1.0},
+    "temperature": {"": 1.0, "k": 1.0},
+}
+_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+def parse_quantity(column: str, value) -> float:
+    """Parse one value of a numeric column, with an optional unit suffix (``60nm``,
+    ``0.06um``, ``1e18cm-3``, ``500meV``, ``300K``). Returns the value in the column's unit.
+    Raises ``DesignError`` naming the column and the accepted units."""
+    lo, hi, default, kind = NUMERIC[column]
+    if isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, bool):
+        return float(value)
+    text = str(value).strip()
+    m = _NUMBER.match(text)
+    if not m:
+        raise DesignError(column, f"expected a number with optional unit ({_unit_list(kind)})", value)
+    unit = m.group(2).lower().replace(" ", "").replace("^", "").replace("/", "per").replace("·", "")
+    unit = unit.replace("per", "") if unit.startswith("per") and unit[3:] in UNITS[kind] else unit
+    if unit not in UNITS[kind]:
+        raise DesignError(column, f"unknown unit {m.group(2)!r}; use {_unit_list(kind)}", value)
+    return float(m.group(1)) * UNITS[kind][unit]
+
+
+def _unit_list(kind: str) -> str:
+    return ", ".join(u for u in UNITS[kind] if u) or "no unit"
+
+
+@dataclass
+class DesignTable:
+    """Validated designs, one entry per input row. Invalid rows keep NaN values and carry
+    their reason in ``status``; ``ok`` marks the rows an engine may compute."""
+
+    n: int
+    material: np.ndarray  # object array of canonical material names ("" where invalid)
+    p_core: np.ndarray  # bool
+    values: dict  # numeric column -> float array
+    status: np.ndarray  # object array: "ok" or a reason
+
+    @property
+    def ok(self) -> np.ndarray:
+        return self.status == "ok"
+
+    def __getitem__(self, column: str) -> np.ndarray:
+        return self.values[column]
+
+    def take(self, rows) -> "DesignTable":
+        """The sub-table of ``rows`` (a slice or index array)."""
+        material = self.material[rows]
+        return DesignTable(n=material.size, material=material, p_core=self.p_core[rows],
+                           values={k: v[rows] for k, v in self.values.items()}, status=self.status[rows])
+
+
+def _as_columns(designs) -> dict:
+    """Accept a mapping of column -> array/scalar, a list of row dicts, or a DataFrame."""
+    if hasattr(designs, "to_dict") and hasattr(designs, "columns"):  # pandas DataFrame
+        return {str(c): designs[c].to_numpy() for c in designs.columns}
+    if isinstance(designs, dict):
+        return dict(designs)
+    rows = list(designs)
+    if rows and not all(isinstance(r, dict) for r in rows):
+        raise DesignError("designs", "expected a mapping of column -> values, a list of row dicts or a DataFrame")
+    keys = {k for r in rows for k in r}
+    return {k: [r.get(k) for r in rows] for k in keys}
+
+
+def _blank(v) -> bool:
+    return v is None or (isinstance(v, float) and math.isnan(v)) or (isinstance(v, str) and not v.strip())
+
+
+class _Status:
+    """Per-row status kept as a bad-row mask plus messages, the first failure of a row wins."""
+
+    def __init__(self, n: int):
+        self.bad = np.zeros(n, dtype=bool)
+        self.text = None
+
+    def fail(self, mask, message):
+        sel = mask & ~self.bad
+        if not sel.any():
+            return
+        if self.text is None:
+            self.text = np.full(self.bad.size, "ok", dtype=object)
+        self.text[sel] = message if isinstance(message, str) else np.asarray(message, dtype=object)[sel]
+        self.bad |= sel
+
+    def array(self) -> np.ndarray:
+        return np.full(self.bad.size, "ok", dtype=object) if self.text is None else self.text
+
+
+def _categories(raw, n):
+    """Map a categorical column to (unique values, inverse index) cheaply when it is uniform."""
+    if np.ndim(raw) == 0:
+        return [raw], np.zeros(n, dtype=np.intp)
+    arr = np.asarray(raw)
+    inv = np.full(n, -1, dtype=np.intp)
+    uniq = []
+    rest = np.arange(n)
+    while rest.size and len(uniq) < 8:  # a few linear scans beat sorting a million strings
+        value = arr[rest[0]]
+        same = arr[rest] == value
+        inv[rest[same]] = len(uniq)
+        uniq.append(value)
+        rest = rest[~same]
+    if rest.size:
+        more, inv_rest = np.unique(arr[rest].astype(str), return_inverse=True)
+        inv[rest] = len(uniq) + inv_rest.reshape(-1)
+        uniq.extend(more)
+    return uniq, inv
+
+
+def normalize_designs(designs) -> DesignTable:
+    """Validate designs row by row (see module docstring). Never raises for a bad row; raises
+    ``DesignError`` only when the whole input is unusable (ragged columns, wrong container)."""
+    cols = _as_columns(designs)
+    lengths = {k: np.size(v) for k, v in cols.items() if np.ndim(v) > 0}
+    n = max(lengths.values(), default=1)
+    if any(m != n for m in lengths.values()):
+        raise DesignError("designs", f"columns have different lengths {sorted(set(lengths.values()))}")
+    st = _Status(n)
+    every = np.ones(n, dtype=bool)
+
+    # material
+    material = np.full(n, "", dtype=object)
+    raw = cols.get("material")
+    if raw is None:
+        st.fail(every, "material: required (e.g. GaAs)")
+    else:
+        uniq, inv = _categories(raw, n)
+        for k, name in enumerate(uniq):
+            sel = inv == k
+            if _blank(name) or str(name) == "None":
+                st.fail(sel, "material: required (e.g. GaAs)")
+                continue
+            try:
+                material[sel] = get_material(str(name)).name
+            except MaterialError as exc:
+                st.fail(sel, str(exc))
+    # core type
+    p_core = np.zeros(n, dtype=bool)
+    raw = cols.get("core_type")
+    if raw is None:
+        st.fail(every, "core_type: required, one of p, n")
+    else:
+        uniq, inv = _categories(raw, n)
+        for k, value in enumerate(uniq):
+            text = str(value).strip().lower().removesuffix("-core").removesuffix("core")
+            sel = inv == k
+            if text == "p":
+                p_core |= sel
+            elif text != "n":
+                st.fail(sel, f"core_type: must be p or n (got {str(value)!r})")
+    # numeric columns
+    values = {}
+    for name, (lo, hi, default, _kind) in NUMERIC.items():
+        raw = cols.get(name)
+        if raw is None:
+            if default is None:
+                st.fail(every, f"{name}: required, allowed range [{lo:g}, {hi:g}]")
+            values[name] = np.full(n, np.nan if default is None else default)
+            continue
+        arr = np.asarray(raw)
+        if arr.dtype.kind in "fiub":
+            x = np.broadcast_to(arr.astype(float), (n,))
+            blank = np.isnan(x)
+        else:
+            uniq, inv = _categories(raw, n)
+            parsed = np.full(len(uniq), np.nan)
+            blank_u = np.zeros(len(uniq), dtype=bool)
+            for k, v in enumerate(uniq):
+                if _blank(v):
+                    blank_u[k] = True
+                    continue
+                try:
+                    parsed[k] = parse_quantity(name, v)
+                except DesignError as exc:
+                    st.fail(inv == k, str(exc))
+            x, blank = parsed[inv], blank_u[inv]
+        if default is None:
+            if blank.any():
+                st.fail(blank, f"{name}: required, allowed range [{lo:g}, {hi:g}]")
+        elif blank.any():
+            x = np.where(blank, default, x)
+        if default is not None and math.isnan(default):  # NaN means "the material's own"
+            blank = blank | np.isnan(x)
+        out = ~((x >= lo) & (x <= hi)) & ~blank
+        if out.any():
+            st.fail(out, np.array([f"{name}: allowed range [{lo:g}, {hi:g}] (got {v:g})" if o else ""
+                                   for v, o in zip(x, out)], dtype=object))
+        values[name] = x
+    # cross-field: the intrinsic interlayer must leave some doped shell
+    il, t = values["interlayer_nm"], values["shell_thickness_nm"]
+    bad = (il > 0) & (il > t - 0.5)
+    if bad.any():
+        st.fail(bad, np.array([f"interlayer_nm: must be at least 0.5 nm thinner than shell_thickness_nm "
+                               f"({s:g} nm) (got {v:g})" if b else "" for v, s, b in zip(il, t, bad)], dtype=object))
+    return DesignTable(n=n, material=material, p_core=p_core, values=values, status=st.array())
+
+
+def check_design(design: dict) -> DesignTable:
+    """Validate one design (a mapping of column -> value); raise ``DesignError`` if it is bad."""
+    table = normalize_designs({k: [v] for k, v in design.items()})
+    if table.status[0] != "ok":
+        field, _, rest = str(table.status[0]).partition(": ")
+        err = DesignError(field, rest)
+        err.args = (str(table.status[0]),)
+        raise err
+    return table

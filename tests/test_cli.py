@@ -1,0 +1,123 @@
+"""The terminal front end, rendered to strings: ask, batch, materials, demo, errors."""
+
+import csv
+import io
+import json
+
+import numpy as np
+import pytest
+from rich.console import Console
+
+import surrogate
+from cli import main
+
+ASK = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "60nm", "--shell-thickness", "0.04um",
+       "--core-doping", "1e18", "--shell-doping", "1e18cm-3", "--dit", "1e12"]
+
+
+def run(argv):
+    buf, out = io.StringIO(), io.StringIO()
+    code = main(argv, console=Console(file=buf, width=120, color_system=None), out=out)
+    return code, buf.getvalue(), out.getvalue()
+
+
+def test_ask_renders_answer_and_caution():
+    code, text, _ = run(ASK)
+    text = " ".join(text.split())
+    assert code == 0
+    assert "both-neutral" in text and "V_bi" in text and "confirm the design with measurements" in text
+
+
+def test_ask_json_matches_library():
+    code, _, out = run(ASK + ["--json", "--statistics", "boltzmann"])
+    row = json.loads(out)
+    lib = surrogate.deplete(dict(material="GaAs", core_type="p", core_radius_nm=60, shell_thickness_nm=40,
+                                 core_doping_cm3=1e18, shell_doping_cm3=1e18, dit_cm2eV=1e12), "boltzmann")
+    assert code == 0 and row["engine"] == "depletion" and row["status"] == "ok"
+    assert row["vbi_V"] == lib["vbi_V"][0] and row["regime"] == lib["regime"][0]
+    assert row["cnl_eV"] == 0.5 and row["temperature_K"] == 300.0  # defaults shown explicitly
+
+
+@pytest.mark.parametrize("swap,fragment", [
+    (("--core-radius", "0nm"), "--core-radius (core_radius_nm: allowed range [1, 100000] (got 0))"),
+    (("--dit", "lots"), "--dit (dit_cm2eV: expected a number"),
+    (("--material", "Kryptonite"), "--material (material: unknown material 'Kryptonite'"),
+])
+def test_ask_bad_input_one_line_exit_2(swap, fragment):
+    argv = list(ASK)
+    argv[argv.index(swap[0]) + 1] = swap[1]
+    code, text, _ = run(argv)
+    assert code == 2 and fragment in text and text.count("\n") == 1 and "Traceback" not in text
+
+
+def test_unknown_flag_one_line():
+    code, text, _ = run(ASK + ["--colour", "blue"])
+    assert code == 2 and text.startswith("radialpn: error: unrecognized arguments") and text.count("\n") == 1
+
+
+def test_no_answer_exit_3():
+    code, text, _ = run(["ask", "--material", "InAs", "--core-type", "p", "--core-radius", "50", "--shell-thickness",
+                         "30", "--core-doping", "1e17", "--shell-doping", "1e17", "--dit", "1e12"])
+    assert code == 3 and "surface accumulates" in text
+
+
+def test_batch_keeps_rows_order_and_input_columns(tmp_path):
+    src = tmp_path / "in.csv"
+    rows = [
+        dict(label="A", material="GaAs", core_type="p", core_radius_nm="60", shell_thickness_nm="40nm",
+             core_doping_cm3="1e18", shell_doping_cm3="1e18", dit_cm2eV="1e12"),
+        dict(label="B", material="GaAs", core_type="n", core_radius_nm="-5", shell_thickness_nm="40",
+             core_doping_cm3="1e18", shell_doping_cm3="1e18", dit_cm2eV="1e12"),
+        dict(label="C", material="InAs", core_type="p", core_radius_nm="50", shell_thickness_nm="30",
+             core_doping_cm3="1e17", shell_doping_cm3="1e17", dit_cm2eV="1e12"),
+        dict(label="D", material="GaAs", core_type="n", core_radius_nm="20", shell_thickness_nm="8",
+             core_doping_cm3="1e17", shell_doping_cm3="3e18", dit_cm2eV="1e13"),
+    ]
+    with open(src, "w", newline="") as fh:
+        w = csv.DictWriter(fh, fieldnames=list(rows[0]))
+        w.writeheader()
+        w.writerows(rows)
+    dst = tmp_path / "out.csv"
+    code, text, _ = run(["batch", str(src), "-o", str(dst), "--engine", "depletion", "--statistics", "boltzmann"])
+    assert code == 0
+    got = list(csv.DictReader(open(dst)))
+    assert [g["label"] for g in got] == ["A", "B", "C", "D"]
+    for g, r in zip(got, rows):
+        assert all(g[k] == v for k, v in r.items())  # input columns unchanged, as text
+    assert got[0]["status"] == "ok" and float(got[0]["vbi_V"]) > 1.3
+    assert got[1]["status"].startswith("core_radius_nm: allowed range") and got[1]["vbi_V"] == ""
+    assert got[2]["status"].startswith("surface accumulates")
+    assert got[3]["status"] == "ok" and got[3]["regime"] in surrogate.REGIMES
+    assert "4 rows" in text
+
+
+def test_batch_missing_file_one_line(tmp_path):
+    code, text, _ = run(["batch", str(tmp_path / "nope.csv")])
+    assert code == 2 and "cannot read" in text and text.count("\n") == 1
+
+
+def test_materials_json_keys_and_temperature():
+    code, _, out = run(["materials", "--json", "--temperature", "77"])
+    data = json.loads(out)
+    assert code == 0 and {"GaAs", "InP", "InAs", "GaN", "Si", "Ge"} <= set(data)
+    g = data["GaAs"]
+    assert set(g) >= {"band_gap_eV", "permittivity_rel", "nc_cm3", "nv_cm3", "cnl_eV", "sources"}
+    # N_c(77 K) = N_c(300 K) (77/300)^1.5 (Sze & Ng, 3rd ed., eq. 1.19); exact by construction
+    assert g["nc_cm3"] == pytest.approx(4.7e17 * (77 / 300) ** 1.5, rel=1e-12)
+
+
+def test_demo_runs():
+    code, text, _ = run(["demo"])
+    flat = " ".join(text.split())
+    assert code == 0 and "Kestrel Bay Photonics" in flat and "Thinnest shell" in flat
+    assert "confirm the design with measurements" in flat
+
+
+def test_user_materials_flag(tmp_path):
+    f = tmp_path / "m.toml"
+    f.write_text("[Demoide]\nband_gap_300_eV=1.5\nvarshni_alpha_eV_K=5e-4\nvarshni_beta_K=200\npermittivity_rel=12\n"
+                 "nc_300_cm3=5e17\nnv_300_cm3=9e18\ncnl_eV=0.55\n")
+    argv = ["--materials", str(f)] + ASK
+    argv[argv.index("GaAs")] = "demoide"
+    code, text, _ = run(argv)
+    assert code == 0 and "Demoide" in text
