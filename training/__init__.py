@@ -1,4 +1,6 @@
 """radialpn's heavy side: the reference Poisson solver, sampling, datasets and fitting.
 May use scipy, pandas, scikit-learn and joblib; never imported by ``surrogate``."""
 
-__all__: list[str] = []
+from ._solver import NODES, SOLVER_VERSION, solve
+
+__all__ = ["NODES", "SOLVER_VERSION", "solve"]

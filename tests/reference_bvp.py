@@ -1,0 +1,52 @@
+"""Independent reference for the Poisson solver: scipy.integrate.solve_bvp (Kierzenka &
+Shampine, ACM TOMS 27, 299 (2001), doi:10.1145/502800.502801) on the first-order system
+y' = F/r, F' = -r rho(y)/eps in core and shell, mapped to s in [0, 1] each and joined by
+continuity of y and F = r dy/dr at the junction. Boltzmann statistics written out with exp;
+p-core/n-shell only; lengths in nm, potentials in V."""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy.integrate import solve_bvp
+
+Q = 1.602176634e-19
+EPS0 = 8.8541878128e-12
+KB = 8.617333262e-5
+
+
+def solve(NA, ND, a, t, eps_r, Eg, Nc, Nv, T, Dit, Ecnl, y_guess):
+    """Dopings and N_c, N_v in cm^-3, a and t in nm, D_it in cm^-2 eV^-1. ``y_guess(r_nm)``:
+    a start for y = E_F - E_v. Returns (V_bi, fine r, fine y)."""
+    kt = KB * T
+    R = a + t
+    k = Q * 1e6 * 1e-18 / (eps_r * EPS0)  # q N[cm^-3] / eps, per nm^2, in V
+
+    def rho(y, dop):  # (p - n + dop) in cm^-3
+        return Nv * np.exp(-y / kt) - Nc * np.exp((y - Eg) / kt) + dop
+
+    s0 = 1e-7
+
+    def f(s, u):
+        yc, Fc, ys, Fs = u
+        rc = a * s
+        rs = a + t * s
+        return np.vstack([a * Fc / rc, -a * rc * k * rho(yc, -NA), t * Fs / rs, -t * rs * k * rho(ys, ND)])
+
+    sig = Q * Dit * 1e4 * 1e-9 / (eps_r * EPS0)  # q D_it / eps in V/nm per eV
+
+    def bc(ua, ub):
+        return np.array([ua[1], ub[0] - ua[2], ub[1] - ua[3], ub[3] + R * sig * (ub[2] - Ecnl)])
+
+    s = np.concatenate([np.geomspace(s0, 0.01, 50), np.linspace(0.01, 1, 400)[1:]])
+    yc, ys = y_guess(a * s), y_guess(a + t * s)
+    d = 1e-6
+    Fc = a * s * (y_guess(a * s + d) - y_guess(a * s - d)) / (2 * d)
+    Fs = (a + t * s) * (y_guess(a + t * s + d) - y_guess(a + t * s - d)) / (2 * d)
+    Fc[0] = 0.0
+    sol = solve_bvp(f, bc, s, np.vstack([yc, Fc, ys, Fs]), tol=1e-7, max_nodes=500000)
+    if not sol.success:
+        raise RuntimeError(sol.message)
+    fine = np.linspace(s0, 1, 200001)
+    u = sol.sol(fine)
+    vbi = u[2].max() - u[0].min()
+    return vbi, np.concatenate([a * fine, a + t * fine]), np.concatenate([u[0], u[2]])

@@ -1,0 +1,108 @@
+"""The reference solver's numerical core: the nonlinear Poisson equation of a p-core/n-shell
+cylinder (n-core designs are solved as their mirror image), batched over designs.
+
+Unknown y(r) = E_F - E_v(r) [eV]; with E_F = 0 it equals the electrostatic potential up to a
+constant. Poisson in a cylinder (physics.md section 5):
+
+    (1/r) d/dr (eps r dy/dr) = -q (p - n + N_net),   p = N_v F(-y/kT),  n = N_c F((y - E_g)/kT)
+
+with F = F_1/2 (Fermi-Dirac) or exp (Boltzmann), full ionisation, dy/dr = 0 on the axis and
+eps dy/dr = sigma_s = -q D_it (y(R) - E_cnl) at the surface (Gauss's law, wire neutral as a
+whole; Sze & Ng, Physics of Semiconductor Devices, 3rd ed., sec. 8.2 for the surface-state
+charge). Discretisation: vertex-centred finite volumes with faces at the midpoints and face
+areas proportional to r (so charge is conserved exactly; S. Selberherr, Analysis and Simulation
+of Semiconductor Devices, Springer 1984, sec. 6.1), dopant charge integrated exactly over each
+control volume. Newton's method with the tridiagonal Jacobian, each node's update limited to
+``STEP_LIMIT_KT`` kT; converged designs leave the working set.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from surrogate._constants import Q
+from surrogate._statistics import occupancy
+
+from ._tridiag import solve_tridiagonal
+
+STEP_LIMIT_KT = 10.0  #: largest change of y per node and Newton step, in units of kT
+Y_TOL = 1e-9  #: converged when every node's Newton update is below this [V]
+MAX_ITER = 200  #: Newton iterations before a design is declared not converged
+
+
+def control_volumes(r, a, b):
+    """Control-volume data of grid ``r`` (N, B) [m]: volumes per radian and length V = r dr
+    integrated [m^2], face coefficients r_face / dr [1] and the exact integral of the doping
+    sign pattern over each volume: core (r < a) and shell (r > b) areas [m^2]."""
+    rh = 0.5 * (r[1:] + r[:-1])  # faces (N-1, B)
+    lo = np.vstack([np.zeros_like(r[:1]), rh])
+    hi = np.vstack([rh, r[-1:]])
+    vol = 0.5 * (hi * hi - lo * lo)
+    core = 0.5 * (np.minimum(hi, a) ** 2 - np.minimum(lo, a) ** 2)
+    shell = 0.5 * (np.maximum(hi, b) ** 2 - np.maximum(lo, b) ** 2)
+    face = rh / np.diff(r, axis=0)
+    return vol, face, core, shell
+
+
+def carriers(y, p, statistics):
+    """Hole and electron densities [m^-3] and their derivatives in y [m^-3/eV]."""
+    kt = p["kT"]
+    fp, dfp = occupancy(-y / kt, statistics)
+    fn, dfn = occupancy((y - p["Eg"]) / kt, statistics)
+    return p["Nv"] * fp, -p["Nv"] * dfp / kt, p["Nc"] * fn, p["Nc"] * dfn / kt
+
+
+def residual(y, p, statistics, jacobian=True):
+    """Finite-volume residual G [C/m per radian] of every node and, optionally, the
+    tridiagonal Jacobian (lower, diag, upper)."""
+    eps, face = p["eps"], p["face"]
+    hole, dhole, elec, delec = carriers(y, p, statistics)
+    flux = eps * face * np.diff(y, axis=0)  # eps r dy/dr at each face
+    G = Q * (p["vol"] * (hole - elec) + p["ND"] * p["shell"] - p["NA"] * p["core"])
+    G[:-1] += flux
+    G[1:] -= flux
+    G[-1] += p["R"] * (-Q * p["Dit"] * (y[-1] - p["Ecnl"]))
+    if not jacobian:
+        return G
+    c = eps * face
+    diag = Q * p["vol"] * (dhole - delec)
+    diag[:-1] -= c
+    diag[1:] -= c
+    diag[-1] -= p["R"] * Q * p["Dit"]
+    lower = np.vstack([np.zeros_like(c[:1]), c])
+    upper = np.vstack([c, np.zeros_like(c[:1])])
+    return G, lower, diag, upper
+
+
+def newton(y0, p, statistics, max_iter=MAX_ITER, tol=Y_TOL):
+    """Solve for y (N, B) from ``y0``. ``p``: dict of per-design arrays, (B,) or (N, B).
+
+    Returns (y, iterations (B,), converged (B,), last max update (B,))."""
+    y = y0.copy()
+    B = y.shape[1]
+    iters = np.zeros(B, dtype=np.int32)
+    conv = np.zeros(B, dtype=bool)
+    last = np.full(B, np.inf)
+    act = np.arange(B)
+    pa, ya = p, y
+    for it in range(1, max_iter + 1):
+        G, lo, di, up = residual(ya, pa, statistics)
+        dy = solve_tridiagonal(lo, di, up, -G)
+        limit = STEP_LIMIT_KT * pa["kT"]
+        dy = np.clip(dy, -limit, limit)
+        ya = ya + dy
+        step = np.max(np.abs(dy), axis=0)
+        ok = np.isfinite(step)
+        done = (step < tol) | ~ok
+        y[:, act] = ya
+        last[act] = step
+        iters[act] = it
+        if done.any():
+            conv[act[done & ok]] = True
+            keep = ~done
+            act = act[keep]
+            if not act.size:
+                break
+            ya = ya[:, keep]
+            pa = {k: (v[..., keep] if np.ndim(v) else v) for k, v in pa.items()}
+    return y, iters, conv, last
