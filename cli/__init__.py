@@ -51,6 +51,16 @@ def build_parser() -> argparse.ArgumentParser:
     mats.add_argument("--json", action="store_true", help="print JSON keyed by material name")
     mats.add_argument("--temperature", default="300", metavar="K", help="temperature (default 300 K)")
 
+    prof = sub.add_parser("profile", help="band diagram of one design (E_c, E_v, E_F against radius)")
+    add_design_flags(prof)
+    prof.add_argument("--engine", choices=("solver", "depletion"), default="solver", help="which engine draws")
+    prof.add_argument("--statistics", choices=STATISTICS, default="fermi-dirac", help="carrier statistics")
+    prof.add_argument("--compare", action="store_true", help="overlay the depletion approximation's bands")
+    prof.add_argument("--png", metavar="FILE", help="also write a PNG (needs the plot extra: matplotlib)")
+    prof.add_argument("--json", action="store_true", help="print the profile arrays as JSON")
+    prof.add_argument("--width", type=int, default=72, help="plot width in characters")
+    prof.add_argument("--height", type=int, default=16, help="plot height in characters")
+
     demo = sub.add_parser("demo", help="a walk through radialpn on an invented growth plan")
     demo.add_argument("--statistics", choices=STATISTICS, default="fermi-dirac", help=argparse.SUPPRESS)
     return p
@@ -75,10 +85,10 @@ def main(argv=None, console=None, out=None) -> int:
         if console is None:
             to_stdout_machine = args.command == "batch" and args.output in (None, "-")
             console = err_console if to_stdout_machine else Console(highlight=False)
-        from . import _commands, _demo
+        from . import _commands, _demo, _profile_cmd
 
-        handler = {"ask": _commands.cmd_ask, "batch": _commands.cmd_batch,
-                   "materials": _commands.cmd_materials, "demo": _demo.cmd_demo}[args.command]
+        handler = {"ask": _commands.cmd_ask, "batch": _commands.cmd_batch, "materials": _commands.cmd_materials,
+                   "profile": _profile_cmd.cmd_profile, "demo": _demo.cmd_demo}[args.command]
         return handler(args, console, out)
     except _errors.UsageError as exc:
         err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, soft_wrap=True)

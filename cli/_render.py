@@ -68,9 +68,11 @@ def answer_table(row: dict) -> Table:
     t.add_row("core neutral radius", f"{fmt(row['core_neutral_radius_nm'], 'nm')} of {fmt(row['core_radius_nm'], 'nm')}")
     t.add_row("shell neutral thickness", f"{fmt(row['shell_neutral_nm'], 'nm')} of {fmt(row['shell_thickness_nm'], 'nm')}")
     t.add_row("surface band bending", fmt(row["surface_bending_V"], "V"))
-    if "core_margin" in row:
-        t.add_row("boundary margins", f"core {row['core_margin']:+.3f}, shell {row['shell_margin']:+.3f}"
-                  "  (>0 keeps a neutral region; 0 is the regime boundary)")
+    for core, shell, what in (("core_margin", "shell_margin", "neutral fraction"),
+                              ("core_majority_ln", "shell_majority_ln", "ln(majority / half doping)")):
+        if core in row:
+            t.add_row("boundary margins", f"core {row[core]:+.3f}, shell {row[shell]:+.3f}  ({what}: >0 keeps a "
+                      "neutral region, 0 is the regime boundary)")
     t.add_row("cross-section", Text.assemble(cross_section(row), Text("  axis → surface", style="dim")))
     return t
 

@@ -55,7 +55,8 @@ def fermi_minus_ev(prob: dict, sol: dict, r):
 def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int = 400) -> dict:
     """Band edges of one design by the depletion approximation.
 
-    Returns ``r_nm`` [nm], ``ec_eV`` and ``ev_eV`` [eV, relative to E_F = 0], the region edges
+    Returns ``r_nm`` [nm], ``ec_eV`` and ``ev_eV`` [eV, relative to E_F = 0], ``region`` (a
+    label per point: core-neutral, core-depleted, shell-neutral, shell-depleted), the region edges
     ``core_neutral_radius_nm``, ``junction_edge_nm`` (where the junction's depletion of the
     shell ends, or the shell's potential extremum when the shell is fully depleted),
     ``surface_edge_nm`` (inner edge of the surface depletion), ``core_radius_nm``,
@@ -79,7 +80,13 @@ def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int
         ec, ev = -ev, -ec
     coupled = bool(sol["coupled"][0])
     r0 = a * np.sqrt(float(sol["w"][0]))
+    rp = a * np.sqrt(float(sol["u"][0]))
+    rs = R * np.sqrt(float(sol["v"][0]))
+    shell_neutral = (~np.array(coupled)) & (r > r0) & (r < rs)
+    region = np.where(r <= a, np.where(r < rp, "core-neutral", "core-depleted"),
+                      np.where(shell_neutral, "shell-neutral", "shell-depleted"))
     return {
+        "region": region,
         "r_nm": r / NM, "ec_eV": ec, "ev_eV": ev, "regime": str(res["regime"][0]), "vbi_V": float(res["vbi_V"][0]),
         "core_neutral_radius_nm": a * np.sqrt(float(sol["u"][0])) / NM, "core_radius_nm": a / NM,
         "outer_radius_nm": R / NM, "junction_edge_nm": min(r0, R) / NM,

@@ -121,3 +121,44 @@ def test_user_materials_flag(tmp_path):
     argv[argv.index("GaAs")] = "demoide"
     code, text, _ = run(argv)
     assert code == 0 and "Demoide" in text
+
+
+def test_ask_solver_engine_json_matches_library():
+    from training import solve
+
+    code, _, out = run(ASK + ["--engine", "solver", "--json"])
+    row = json.loads(out)
+    lib = solve(dict(material="GaAs", core_type="p", core_radius_nm=60, shell_thickness_nm=40,
+                     core_doping_cm3=1e18, shell_doping_cm3=1e18, dit_cm2eV=1e12))
+    assert code == 0 and row["engine"] == "solver" and row["vbi_V"] == lib["vbi_V"][0]
+    assert row["solver_version"] and row["iterations"] > 0
+
+
+def test_profile_terminal_compare_and_png(tmp_path):
+    png = tmp_path / "bands.png"
+    argv = ["profile"] + ASK[1:] + ["--compare", "--png", str(png), "--width", "60"]
+    code, text, _ = run(argv)
+    flat = " ".join(text.split())
+    assert code == 0 and "E_c" in flat and "depletion approx." in flat and "difference" in flat
+    assert any(0x2800 < ord(ch) <= 0x28FF for ch in text)  # braille plot drawn
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_profile_json_arrays():
+    code, _, out = run(["profile"] + ASK[1:] + ["--json"])
+    data = json.loads(out)
+    assert code == 0 and len(data["r_nm"]) == len(data["ec_eV"]) == len(data["region"])
+    # E_c - E_v = E_g everywhere (same band gap, both edges from one potential): exact to rounding
+    assert np.allclose(np.array(data["ec_eV"]) - np.array(data["ev_eV"]), 1.424, atol=1e-12)
+
+
+def test_batch_solver_engine(tmp_path):
+    src = tmp_path / "in.csv"
+    src.write_text("material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
+                   "GaAs,p,60,40,1e18,1e18,1e12\nGaAs,n,5nm,1,1e20,1e15,1e15\nGaAs,p,oops,40,1e18,1e18,1e12\n")
+    code, _, out = run(["batch", str(src), "--engine", "solver"])
+    got = list(csv.DictReader(io.StringIO(out)))
+    assert code == 0 and len(got) == 3
+    assert got[0]["engine"] == "solver" and got[0]["status"] == "ok" and got[1]["status"] == "ok"
+    assert got[2]["status"].startswith("core_radius_nm") and got[2]["vbi_V"] == ""
+    assert float(got[0]["charge_residual"]) < 1e-6

@@ -153,7 +153,7 @@ def test_accumulating_surface_keeps_shell_neutral():
     # at the surface, so the n-shell stays neutral up to R and the bands bend down (bending < 0).
     out = solve(dict(material="InAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30,
                      core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e13))
-    assert out["shell_margin"][0] > 0 and out["surface_bending_V"][0] < 0
+    assert out["shell_majority_ln"][0] > 0 and out["surface_bending_V"][0] < 0
 
 
 def test_no_convergence_is_a_status_not_a_number(monkeypatch):

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-GROWTH = 0.15  #: g: spacing grows by this much per unit distance from an edge [1]
+GROWTH = 0.10  #: g: spacing grows by this much per unit distance from an edge [1]
 MIN_REGION_NODES = 6  #: at least this many intervals in every region of non-zero width
 
 

@@ -3,9 +3,10 @@ Poisson solution (``_poisson``), batched and optionally spread over processes wi
 
 Regime criterion (documented in README and DEVELOPERS.md): a region keeps a neutral part when
 its majority-carrier density reaches at least half its doping somewhere in it. Margins:
-``core_margin = ln(2 max p_core / N_core)`` and ``shell_margin = ln(2 max n_shell / N_shell)``
-(majority carriers of the mirrored p-core frame), positive where the region keeps a neutral
-part, zero on the boundary.
+``core_majority_ln = ln(2 max p_core / N_core)`` and ``shell_majority_ln = ln(2 max n_shell /
+N_shell)`` (majority carriers; named apart from the depletion engine's geometric
+``core_margin``/``shell_margin`` because their scale differs), positive where the region keeps
+a neutral part, zero on the boundary.
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ from ._grid import graded_grid
 from ._poisson import carriers, control_volumes, newton, residual
 
 SOLVER_VERSION = "1.0"  #: recorded in every training row; bump when results can change
-NODES = 320  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
+NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
 BATCH = 256  #: designs per Newton batch
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
 H0_MAX_NM = 1.0  #: ... but at most this [nm]
@@ -67,8 +68,9 @@ def _physics(table: DesignTable, statistics: str):
                 y_core=y_core, y_shell=y_shell)
 
 
-def _chunk(ph: dict, sel, statistics: str, nodes: int) -> dict:
-    """Solve the designs ``sel`` of the prepared physics ``ph``; returns output arrays."""
+def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False) -> dict:
+    """Solve the designs ``sel`` of the prepared physics ``ph``; returns output arrays (and
+    the grids ``r`` [m], solutions ``y`` [eV] and carrier densities if ``profiles``)."""
     pr = {k: v[sel] for k, v in ph["prob"].items()}
     sol = {k: (v[sel] if np.ndim(v) else v) for k, v in ph["sol"].items() if k != "iterations" and k != "mean_iterations"}
     a, b, R = pr["a"], ph["b"][sel], pr["R"]
@@ -96,8 +98,11 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int) -> dict:
         out = analyse(y, r, p, a, b, statistics)
     # interface.md: bending from the shell's neutral level where it keeps one (negative when
     # the surface accumulates), else from the shell's potential extremum
-    out["surface_bending_V"] = np.where(out["shell_margin"] >= 0, ys - y[-1], out["surface_bending_V"])
+    out["surface_bending_V"] = np.where(out["shell_majority_ln"] >= 0, ys - y[-1], out["surface_bending_V"])
     out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc)
+    if profiles:
+        hole, _, elec, _ = carriers(y, p, statistics)
+        out.update(r=r, y=y, hole=hole, elec=elec, Eg=p["Eg"])
     return out
 
 
@@ -160,7 +165,7 @@ def analyse(y, r, p, a, b, statistics):
     regime = np.where(core_neutral, np.where(shell_neutral, 0, 2), np.where(shell_neutral, 1, 3))
     return dict(regime_code=regime, vbi_V=y_max_shell - y_min_core, core_neutral_radius_m=np.where(core_neutral, rp, 0.0),
                 shell_neutral_m=np.where(shell_neutral, np.maximum(hi - lo, 0.0), 0.0),
-                surface_bending_V=y_max_shell - y[-1], core_margin=core_margin, shell_margin=shell_margin,
+                surface_bending_V=y_max_shell - y[-1], core_majority_ln=core_margin, shell_majority_ln=shell_margin,
                 charge_residual=np.abs(G.sum(0)) / scale)
 
 
@@ -172,7 +177,7 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     ``"boltzmann"``. ``nodes``: grid nodes per design. ``n_jobs``: joblib workers (-1: all
     cores); ``backend``: joblib backend name (``"loky"`` by default, ``"dask"`` inside a
     ``joblib.parallel_config(backend="dask")`` block). Returns the output columns of
-    interface.md plus ``core_margin``, ``shell_margin``, ``charge_residual`` (|bulk + surface
+    interface.md plus ``core_majority_ln``, ``shell_majority_ln`` (see module docstring), ``charge_residual`` (|bulk + surface
     charge| over the total dopant charge), ``iterations`` and ``solver_version``. A design
     that does not converge carries the reason in ``status`` and no numbers.
     """
@@ -212,7 +217,7 @@ def _assemble(table, rows, parts, results) -> dict:
     n = table.n
     nan = np.full(n, np.nan)
     cols = {k: nan.copy() for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
-                                    "surface_bending_V", "core_margin", "shell_margin", "charge_residual")}
+                                    "surface_bending_V", "core_majority_ln", "shell_majority_ln", "charge_residual")}
     regime = np.full(n, "", dtype=object)
     iters = np.zeros(n, dtype=np.int32)
     status = table.status.copy()
@@ -220,7 +225,7 @@ def _assemble(table, rows, parts, results) -> dict:
     for sel, res in zip(parts, results):
         good = res["converged"] & np.isfinite(res["vbi_V"])
         ok_rows, bad_rows = sel[good], sel[~good]
-        for k in ("vbi_V", "vbi0_V", "surface_bending_V", "core_margin", "shell_margin", "charge_residual"):
+        for k in ("vbi_V", "vbi0_V", "surface_bending_V", "core_majority_ln", "shell_majority_ln", "charge_residual"):
             cols[k][ok_rows] = res[k][good]
         cols["core_neutral_radius_nm"][ok_rows] = res["core_neutral_radius_m"][good] / NM
         cols["shell_neutral_nm"][ok_rows] = res["shell_neutral_m"][good] / NM
@@ -230,6 +235,6 @@ def _assemble(table, rows, parts, results) -> dict:
                             for it, u in zip(res["iterations"][~good], res["last_update_V"][~good])]
     return dict(regime=regime, **{k: cols[k] for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm",
                                                         "shell_neutral_nm", "surface_bending_V")},
-                engine=np.full(n, "solver", dtype=object), status=status, core_margin=cols["core_margin"],
-                shell_margin=cols["shell_margin"], charge_residual=cols["charge_residual"], iterations=iters,
+                engine=np.full(n, "solver", dtype=object), status=status, core_majority_ln=cols["core_majority_ln"],
+                shell_majority_ln=cols["shell_majority_ln"], charge_residual=cols["charge_residual"], iterations=iters,
                 solver_version=np.full(n, SOLVER_VERSION, dtype=object))

@@ -1,0 +1,126 @@
+"""`radialpn profile`: the band diagram of one design in the terminal (and as PNG)."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+from rich.panel import Panel
+from rich.text import Text
+
+import surrogate
+
+from . import _errors
+from ._designargs import design_from_args, flag_hint
+from ._plot import BrailleCanvas
+from ._render import CAUTION, design_line, regime_text
+
+STYLE = {"ec": "bold #4fa3e0", "ev": "bold #e07a4f", "ef": "#9a9a9a", "ec_da": "#2f6f9f", "ev_da": "#9f4f2f"}
+REGION_GLYPH = {"core-neutral": ("█", "#5b8def"), "core-depleted": ("░", "#5b8def"), "interlayer": ("·", "#bbbbbb"),
+                "shell-neutral": ("█", "#e8803a"), "shell-depleted": ("░", "#e8803a")}
+
+
+def _profile(engine, design, statistics):
+    if engine == "solver":
+        from training import solver_profile
+
+        return solver_profile(design, statistics)
+    return surrogate.depletion_profile(design, statistics, points=800)
+
+
+def cmd_profile(args, console, out) -> int:
+    design = design_from_args(args)
+    table = surrogate.normalize_designs({k: [v] for k, v in design.items()})
+    if table.status[0] != "ok":
+        raise _errors.UsageError(flag_hint(str(table.status[0])))
+    main = _profile(args.engine, design, args.statistics)
+    other = None
+    if args.compare:
+        try:
+            other = surrogate.depletion_profile(design, args.statistics, points=800)
+        except surrogate.RadialpnError as exc:
+            other = str(exc)
+    if args.json:
+        keep = {k: (v.tolist() if isinstance(v, np.ndarray) else v) for k, v in main.items()}
+        out.write(json.dumps(keep) + "\n")
+        return _errors.OK
+    row = {"material": table.material[0], "core_type": "p" if table.p_core[0] else "n",
+           **{k: float(v[0]) for k, v in table.values.items()}}
+    if np.isnan(row["cnl_eV"]):
+        row["cnl_eV"] = surrogate.get_material(row["material"]).cnl_eV
+    console.print(Panel.fit(design_line(row), title=f"radialpn profile · {args.engine} · {args.statistics}",
+                            border_style="#5b8def"))
+    width = max(30, min(args.width, console.width - 12))
+    curves = [(main["r_nm"], main["ec_eV"]), (main["r_nm"], main["ev_eV"])]
+    if isinstance(other, dict):
+        curves += [(other["r_nm"], other["ec_eV"]), (other["r_nm"], other["ev_eV"])]
+    lo = min(float(np.min(c[1])) for c in curves + [(None, np.zeros(1))])
+    hi = max(float(np.max(c[1])) for c in curves + [(None, np.zeros(1))])
+    pad = 0.06 * (hi - lo)
+    R = float(main["outer_radius_nm"])
+    canvas = BrailleCanvas(width, args.height, (0.0, R), (lo - pad, hi + pad))
+    canvas.line(np.array([0.0, R]), np.zeros(2), STYLE["ef"], dotted=True)
+    if isinstance(other, dict):
+        canvas.line(other["r_nm"], other["ec_eV"], STYLE["ec_da"], dotted=True)
+        canvas.line(other["r_nm"], other["ev_eV"], STYLE["ev_da"], dotted=True)
+    canvas.line(main["r_nm"], main["ec_eV"], STYLE["ec"])
+    canvas.line(main["r_nm"], main["ev_eV"], STYLE["ev"])
+    console.print(canvas.render(ylabel="energy [eV], E_F = 0", xlabel="r [nm], axis → surface"))
+    strip = Text("  region ")
+    for i in range(width):
+        r = (i + 0.5) / width * R
+        label = main["region"][min(np.searchsorted(main["r_nm"], r), len(main["region"]) - 1)]
+        glyph, colour = REGION_GLYPH[str(label)]
+        strip.append(glyph, style=colour)
+    console.print(strip)
+    legend = Text("  ")
+    legend.append("━ E_c", style=STYLE["ec"]).append("   ").append("━ E_v", style=STYLE["ev"]).append("   ")
+    legend.append("┄ E_F", style=STYLE["ef"]).append("   ")
+    if isinstance(other, dict):
+        legend.append("┄ depletion approx. E_c, E_v", style=STYLE["ec_da"]).append("   ")
+    legend.append("█ neutral  ░ depleted  (core blue, shell orange)", style="dim")
+    console.print(legend)
+    summary = Text.assemble("  ", regime_text(main["regime"]), f"   V_bi {main['vbi_V']:.4f} V ({args.engine})")
+    if isinstance(other, dict):
+        summary.append(f"   depletion approx.: {other['regime']}, V_bi {other['vbi_V']:.4f} V, "
+                       f"difference {1e3 * (main['vbi_V'] - other['vbi_V']):+.1f} mV")
+    elif isinstance(other, str):
+        summary.append(f"   depletion approx.: no answer ({other})")
+    console.print(summary)
+    if args.png:
+        _png(args.png, main, other if isinstance(other, dict) else None, args.engine)
+        console.print(f"[dim]wrote {args.png}[/]")
+    console.print(f"[dim]{CAUTION}[/]")
+    return _errors.OK
+
+
+def _png(path, main, other, engine):
+    try:
+        import matplotlib
+
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+    except ImportError:
+        raise _errors.UsageError("--png needs matplotlib: pip install 'radialpn[plot]'") from None
+    fig, ax = plt.subplots(figsize=(7, 4.2), dpi=130)
+    ax.plot(main["r_nm"], main["ec_eV"], color="#2f7fc1", lw=2, label=f"E_c ({engine})")
+    ax.plot(main["r_nm"], main["ev_eV"], color="#c8602f", lw=2, label=f"E_v ({engine})")
+    if other is not None:
+        ax.plot(other["r_nm"], other["ec_eV"], color="#2f7fc1", lw=1, ls=":", label="E_c (depletion approx.)")
+        ax.plot(other["r_nm"], other["ev_eV"], color="#c8602f", lw=1, ls=":", label="E_v (depletion approx.)")
+    ax.axhline(0.0, color="0.5", lw=0.8, ls="--", label="E_F")
+    a = main["core_radius_nm"]
+    ax.axvspan(0, a, color="#5b8def", alpha=0.08, lw=0)
+    ax.axvspan(main.get("interlayer_end_nm", a), main["outer_radius_nm"], color="#e8803a", alpha=0.08, lw=0)
+    ax.axvline(a, color="0.3", lw=0.8)
+    ax.set_xlabel("radius r [nm] (axis → surface)")
+    ax.set_ylabel("energy [eV] (E_F = 0)")
+    ax.set_title(f"{main['regime']}, V_bi = {main['vbi_V']:.3f} V (design estimate)", fontsize=10)
+    ax.legend(fontsize=7, loc="best")
+    fig.tight_layout()
+    try:
+        fig.savefig(path)
+    except OSError as exc:
+        raise _errors.UsageError(f"--png {path}: cannot write ({exc.strerror})") from None
+    finally:
+        plt.close(fig)

@@ -1,0 +1,50 @@
+"""Band profile of one design from the reference solver (for `radialpn profile`)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from surrogate._constants import NM
+from surrogate._design import REGIMES, check_design
+from surrogate._errors import RadialpnError
+from surrogate._statistics import check_statistics
+
+from ._solver import NODES, _chunk, _physics
+
+
+def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = NODES) -> dict:
+    """Solved band edges of one design.
+
+    Returns ``r_nm`` [nm], ``ec_eV``, ``ev_eV`` [eV, E_F = 0], ``n_cm3``, ``p_cm3`` [cm^-3] on the
+    solver's grid, with ``regime``, ``vbi_V``, ``core_radius_nm``, ``interlayer_end_nm``,
+    ``outer_radius_nm`` and the neutral extents. Raises ``DesignError`` on bad input and
+    ``RadialpnError`` if the solver does not converge.
+    """
+    statistics = check_statistics(statistics)
+    table = check_design(design)
+    ph = _physics(table, statistics)
+    res = _chunk(ph, np.array([0]), statistics, nodes, profiles=True)
+    if not res["converged"][0]:
+        raise RadialpnError(f"solver: no convergence in {res['iterations'][0]} Newton steps")
+    y, r, eg = res["y"][:, 0], res["r"][:, 0], float(res["Eg"][0])
+    ev, ec = -y, eg - y
+    hole, elec = res["hole"][:, 0], res["elec"][:, 0]
+    if not table.p_core[0]:  # mirror back to the n-core frame
+        ec, ev = -ev, -ec
+        hole, elec = elec, hole
+    a = float(ph["prob"]["a"][0])
+    b = float(ph["b"][0])
+    na, nd = float(ph["prob"]["NA"][0]), float(ph["prob"]["ND"][0])  # mirrored frame: core p, shell n
+    maj_core = res["hole"][:, 0] >= 0.5 * na
+    maj_shell = res["elec"][:, 0] >= 0.5 * nd
+    region = np.where(r <= a, np.where(maj_core, "core-neutral", "core-depleted"),
+                      np.where(r < b, "interlayer", np.where(maj_shell, "shell-neutral", "shell-depleted")))
+    return {
+        "region": region,
+        "r_nm": r / NM, "ec_eV": ec, "ev_eV": ev, "n_cm3": elec * 1e-6, "p_cm3": hole * 1e-6,
+        "regime": REGIMES[int(res["regime_code"][0])], "vbi_V": float(res["vbi_V"][0]),
+        "vbi0_V": float(res["vbi0_V"][0]), "core_radius_nm": a / NM,
+        "interlayer_end_nm": float(ph["b"][0]) / NM, "outer_radius_nm": float(ph["prob"]["R"][0]) / NM,
+        "core_neutral_radius_nm": float(res["core_neutral_radius_m"][0]) / NM,
+        "shell_neutral_nm": float(res["shell_neutral_m"][0]) / NM, "iterations": int(res["iterations"][0]),
+    }
