@@ -158,6 +158,18 @@ def _categories(raw, n):
     return uniq, inv
 
 
+def _each_category(cols, name, n, st, missing):
+    """Yield (value, row mask) for each distinct value of a categorical column; a missing
+    column fails every row with ``missing``."""
+    raw = cols.get(name)
+    if raw is None:
+        st.fail(np.ones(n, dtype=bool), missing)
+        return
+    uniq, inv = _categories(raw, n)
+    for k, value in enumerate(uniq):
+        yield value, inv == k
+
+
 def normalize_designs(designs) -> DesignTable:
     """Validate designs row by row (see module docstring). Never raises for a bad row; raises
     ``DesignError`` only when the whole input is unusable (ragged columns, wrong container)."""
@@ -167,38 +179,26 @@ def normalize_designs(designs) -> DesignTable:
     if any(m != n for m in lengths.values()):
         raise DesignError("designs", f"columns have different lengths {sorted(set(lengths.values()))}")
     st = _Status(n)
-    every = np.ones(n, dtype=bool)
+    every = np.ones(n, dtype=bool)  # for whole-column failures
 
     # material
     material = np.full(n, "", dtype=object)
-    raw = cols.get("material")
-    if raw is None:
-        st.fail(every, "material: required (e.g. GaAs)")
-    else:
-        uniq, inv = _categories(raw, n)
-        for k, name in enumerate(uniq):
-            sel = inv == k
-            if _blank(name) or str(name) == "None":
-                st.fail(sel, "material: required (e.g. GaAs)")
-                continue
-            try:
-                material[sel] = get_material(str(name)).name
-            except MaterialError as exc:
-                st.fail(sel, str(exc))
+    for name, sel in _each_category(cols, "material", n, st, "material: required (e.g. GaAs)"):
+        if _blank(name) or str(name) == "None":
+            st.fail(sel, "material: required (e.g. GaAs)")
+            continue
+        try:
+            material[sel] = get_material(str(name)).name
+        except MaterialError as exc:
+            st.fail(sel, str(exc))
     # core type
     p_core = np.zeros(n, dtype=bool)
-    raw = cols.get("core_type")
-    if raw is None:
-        st.fail(every, "core_type: required, one of p, n")
-    else:
-        uniq, inv = _categories(raw, n)
-        for k, value in enumerate(uniq):
-            text = str(value).strip().lower().removesuffix("-core").removesuffix("core")
-            sel = inv == k
-            if text == "p":
-                p_core |= sel
-            elif text != "n":
-                st.fail(sel, f"core_type: must be p or n (got {str(value)!r})")
+    for value, sel in _each_category(cols, "core_type", n, st, "core_type: required, one of p, n"):
+        text = str(value).strip().lower().removesuffix("-core").removesuffix("core")
+        if text == "p":
+            p_core |= sel
+        elif text != "n":
+            st.fail(sel, f"core_type: must be p or n (got {str(value)!r})")
     # numeric columns
     values = {}
     for name, (lo, hi, default, _kind) in NUMERIC.items():
