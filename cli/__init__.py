@@ -61,6 +61,12 @@ def build_parser() -> argparse.ArgumentParser:
     prof.add_argument("--width", type=int, default=72, help="plot width in characters")
     prof.add_argument("--height", type=int, default=16, help="plot height in characters")
 
+    ds = sub.add_parser("dataset", help="build a training set from a domain spec with the reference solver")
+    ds.add_argument("spec", metavar="SPEC.toml", help="domain spec (see models/specs/)")
+    ds.add_argument("-o", "--output", metavar="DIR", required=True, help="dataset directory (resumable)")
+    ds.add_argument("--jobs", type=int, default=-1, help="worker processes (default: all cores)")
+    ds.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://10.0.0.5:8786")
+
     demo = sub.add_parser("demo", help="a walk through radialpn on an invented growth plan")
     demo.add_argument("--statistics", choices=STATISTICS, default="fermi-dirac", help=argparse.SUPPRESS)
     return p
@@ -85,10 +91,11 @@ def main(argv=None, console=None, out=None) -> int:
         if console is None:
             to_stdout_machine = args.command == "batch" and args.output in (None, "-")
             console = err_console if to_stdout_machine else Console(highlight=False)
-        from . import _commands, _demo, _profile_cmd
+        from . import _commands, _dataset_cmd, _demo, _profile_cmd
 
         handler = {"ask": _commands.cmd_ask, "batch": _commands.cmd_batch, "materials": _commands.cmd_materials,
-                   "profile": _profile_cmd.cmd_profile, "demo": _demo.cmd_demo}[args.command]
+                   "profile": _profile_cmd.cmd_profile, "dataset": _dataset_cmd.cmd_dataset,
+                   "demo": _demo.cmd_demo}[args.command]
         return handler(args, console, out)
     except _errors.UsageError as exc:
         err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, soft_wrap=True)

@@ -8,6 +8,7 @@ estimates, not measurements: confirm a design with measurements before a growth 
 from ._depletion import deplete
 from ._design import (
     CORE_TYPES, INPUT_COLUMNS, OUTPUT_COLUMNS, REGIMES, DesignTable, check_design,
+    NUMERIC as NUMERIC_COLUMNS,
     normalize_designs, parse_quantity,
 )
 from ._errors import DesignError, MaterialError, RadialpnError
@@ -21,7 +22,7 @@ from ._statistics import fermi_half, fermi_half_inverse, intrinsic_density, redu
 __version__ = "0.1.0"
 
 __all__ = [
-    "CORE_TYPES", "INPUT_COLUMNS", "OUTPUT_COLUMNS", "REGIMES", "DesignError", "DesignTable",
+    "CORE_TYPES", "INPUT_COLUMNS", "NUMERIC_COLUMNS", "OUTPUT_COLUMNS", "REGIMES", "DesignError", "DesignTable",
     "Material", "MaterialError", "RadialpnError", "check_design", "deplete", "depletion_profile",
     "fermi_half", "fermi_half_inverse", "get_material", "intrinsic_density",
     "load_material_file", "material_from_dict", "material_names", "normalize_designs",

@@ -1,0 +1,181 @@
+"""Domain specs: one small TOML file per model bundle saying what a training set covers.
+
+Example (``models/specs/gaas-pcore.toml``)::
+
+    [bundle]
+    name = "gaas-pcore"
+    material = "GaAs"
+    core_type = "p"
+    statistics = "fermi-dirac"
+    seed = 20261201
+
+    [variables]            # sampled: min, max, transform = "log" | "linear"
+    core_radius_nm = { min = 10, max = 300, transform = "log" }
+    ...
+
+    [fixed]                # design-table columns held constant
+    interlayer_nm = 0
+
+    [sizes]
+    train = 200000         # Sobol base plus refinement rounds
+    refine_rounds = 2      # rounds that add points near regime boundaries
+    refine_fraction = 0.4  # share of ``train`` placed by refinement
+    calibration = 4000     # uniform, own seed, never used for fitting
+    test = 6000            # uniform, own seed, held out
+    shard_rows = 2048      # rows per shard file
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from surrogate import INPUT_COLUMNS, NUMERIC_COLUMNS, RadialpnError, get_material
+from surrogate._statistics import STATISTICS
+
+
+class SpecError(RadialpnError, ValueError):
+    """A domain spec is malformed; the message names the key and what is allowed."""
+
+
+@dataclass(frozen=True)
+class Variable:
+    name: str
+    lo: float
+    hi: float
+    transform: str  # "log" or "linear"
+
+    def from_unit(self, u):
+        """Map points of [0, 1] to the variable's range [unit of the column]."""
+        u = np.asarray(u, dtype=float)
+        if self.transform == "log":
+            return 10.0 ** (np.log10(self.lo) + u * (np.log10(self.hi) - np.log10(self.lo)))
+        return self.lo + u * (self.hi - self.lo)
+
+    def to_unit(self, x):
+        x = np.asarray(x, dtype=float)
+        if self.transform == "log":
+            return (np.log10(x) - np.log10(self.lo)) / (np.log10(self.hi) - np.log10(self.lo))
+        return (x - self.lo) / (self.hi - self.lo)
+
+
+@dataclass(frozen=True)
+class DomainSpec:
+    name: str
+    material: str
+    core_type: str
+    statistics: str
+    seed: int
+    variables: tuple
+    fixed: dict = field(default_factory=dict)
+    train: int = 200000
+    refine_rounds: int = 2
+    refine_fraction: float = 0.4
+    calibration: int = 4000
+    test: int = 6000
+    shard_rows: int = 2048
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d["variables"] = [asdict(v) for v in self.variables]
+        return d
+
+    def digest(self) -> str:
+        """SHA-256 of the canonical JSON form: what a dataset directory was built from."""
+        return hashlib.sha256(json.dumps(self.to_dict(), sort_keys=True).encode()).hexdigest()
+
+    def designs(self, unit) -> dict:
+        """Design-table columns for points ``unit`` (n, d) of the unit cube."""
+        cols = {"material": self.material, "core_type": self.core_type}
+        cols.update({k: np.full(unit.shape[0], float(v)) for k, v in self.fixed.items()})
+        for j, var in enumerate(self.variables):
+            cols[var.name] = var.from_unit(unit[:, j])
+        return cols
+
+    def to_unit(self, frame) -> np.ndarray:
+        """Unit-cube coordinates of designs (mapping or DataFrame of the variables' columns)."""
+        return np.column_stack([v.to_unit(np.asarray(frame[v.name], dtype=float)) for v in self.variables])
+
+
+def _need(table, key, where, kind=None):
+    if key not in table:
+        raise SpecError(f"{where}.{key}: required")
+    v = table[key]
+    if kind is not None and not isinstance(v, kind):
+        raise SpecError(f"{where}.{key}: expected {getattr(kind, '__name__', kind)} (got {v!r})")
+    return v
+
+
+def spec_from_dict(data: dict) -> DomainSpec:
+    """Build and check a ``DomainSpec`` from the parsed TOML tables."""
+    b = _need(data, "bundle", "spec", dict)
+    name = str(_need(b, "name", "bundle"))
+    material = get_material(str(_need(b, "material", "bundle"))).name
+    core_type = str(_need(b, "core_type", "bundle")).lower()
+    if core_type not in ("p", "n"):
+        raise SpecError(f"bundle.core_type: must be p or n (got {core_type!r})")
+    statistics = str(b.get("statistics", "fermi-dirac")).lower()
+    if statistics not in STATISTICS:
+        raise SpecError(f"bundle.statistics: one of {', '.join(STATISTICS)} (got {statistics!r})")
+    seed = _need(b, "seed", "bundle", int)
+    variables = []
+    for col, t in _need(data, "variables", "spec", dict).items():
+        if col not in NUMERIC_COLUMNS:
+            raise SpecError(f"variables.{col}: not a numeric design-table column ({', '.join(NUMERIC_COLUMNS)})")
+        if not isinstance(t, dict):
+            raise SpecError(f"variables.{col}: expected a table {{min, max, transform}}")
+        lo_ok, hi_ok = NUMERIC_COLUMNS[col][:2]
+        lo, hi = float(_need(t, "min", f"variables.{col}")), float(_need(t, "max", f"variables.{col}"))
+        tr = str(t.get("transform", "linear"))
+        if tr not in ("log", "linear"):
+            raise SpecError(f"variables.{col}.transform: log or linear (got {tr!r})")
+        if not (lo_ok <= lo < hi <= hi_ok):
+            raise SpecError(f"variables.{col}: need {lo_ok:g} <= min < max <= {hi_ok:g} (got {lo:g}, {hi:g})")
+        if tr == "log" and lo <= 0:
+            raise SpecError(f"variables.{col}: a log transform needs min > 0 (got {lo:g})")
+        variables.append(Variable(col, lo, hi, tr))
+    if not variables:
+        raise SpecError("variables: at least one sampled variable")
+    fixed = dict(data.get("fixed", {}))
+    for col in fixed:
+        if col not in NUMERIC_COLUMNS or col in {v.name for v in variables}:
+            raise SpecError(f"fixed.{col}: a numeric design-table column that is not sampled")
+    s = data.get("sizes", {})
+    sizes = {}
+    for key, lo, hi, kind in (("train", 100, 10 ** 8, int), ("refine_rounds", 0, 20, int),
+                              ("refine_fraction", 0.0, 0.9, (int, float)), ("calibration", 0, 10 ** 7, int),
+                              ("test", 0, 10 ** 7, int), ("shard_rows", 64, 10 ** 6, int)):
+        if key in s:
+            v = s[key]
+            if not isinstance(v, kind) or isinstance(v, bool) or not lo <= v <= hi:
+                raise SpecError(f"sizes.{key}: allowed range [{lo:g}, {hi:g}] (got {v!r})")
+            sizes[key] = v
+    spec = DomainSpec(name=name, material=material, core_type=core_type, statistics=statistics, seed=seed,
+                      variables=tuple(variables), fixed=fixed, **sizes)
+    missing = [c for c in INPUT_COLUMNS[2:] if c not in {v.name for v in variables} | set(fixed)
+               and NUMERIC_COLUMNS[c][2] is None]
+    if missing:
+        raise SpecError(f"spec: required design columns neither sampled nor fixed: {', '.join(missing)}")
+    return spec
+
+
+def load_spec(path) -> DomainSpec:
+    """Read a domain spec TOML file (see module docstring)."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise SpecError(f"{path}: cannot read ({exc.strerror})") from None
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # Python 3.10
+        import tomli as tomllib
+    try:
+        data = tomllib.loads(text)
+    except ValueError as exc:
+        raise SpecError(f"{path}: not valid TOML ({exc})") from None
+    return spec_from_dict(data)
