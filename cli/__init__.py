@@ -41,11 +41,14 @@ def build_parser() -> argparse.ArgumentParser:
     add_design_flags(ask)
     engine_flags(ask)
     ask.add_argument("--json", action="store_true", help="print one JSON row (design-table columns)")
+    ask.add_argument("--verify", action="store_true", help="also run the reference solver and compare")
 
     batch = sub.add_parser("batch", help="answer every row of a CSV design table")
     batch.add_argument("input", metavar="IN.csv", help="CSV with design-table columns (extra columns kept)")
     batch.add_argument("-o", "--output", metavar="OUT.csv", help="where to write (default: standard output)")
     engine_flags(batch)
+    batch.add_argument("--second-opinion", action="store_true",
+                       help="surrogate engine: add the Gaussian-process columns and flag disagreements (slower)")
 
     mats = sub.add_parser("materials", help="the material table with sources")
     mats.add_argument("--json", action="store_true", help="print JSON keyed by material name")
@@ -66,6 +69,18 @@ def build_parser() -> argparse.ArgumentParser:
     ds.add_argument("-o", "--output", metavar="DIR", required=True, help="dataset directory (resumable)")
     ds.add_argument("--jobs", type=int, default=-1, help="worker processes (default: all cores)")
     ds.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://10.0.0.5:8786")
+
+    sub.add_parser("models", help="the installed surrogate bundles: domain and validated accuracy")
+    val = sub.add_parser("validate", help="check a surrogate bundle against fresh reference-solver runs")
+    val.add_argument("bundle", metavar="BUNDLE", help="bundle directory or name (see `radialpn models`)")
+    val.add_argument("--rows", type=int, default=6000, help="fresh solver runs (default 6000; >= 5000 advised)")
+    val.add_argument("--seed", type=int, default=777, help="seed of the fresh designs")
+    val.add_argument("--no-write", action="store_true", help="do not store the report in the bundle and card")
+    tr = sub.add_parser("train", help="build a surrogate bundle from a domain spec (dataset, fit, validation)")
+    tr.add_argument("spec", metavar="SPEC.toml")
+    tr.add_argument("--data", metavar="DIR", help="dataset directory (default: data/NAME; resumable)")
+    tr.add_argument("-o", "--output", metavar="DIR", help="bundle directory (default: models/NAME)")
+    tr.add_argument("--jobs", type=int, default=-1, help="worker processes for the solver")
 
     demo = sub.add_parser("demo", help="a walk through radialpn on an invented growth plan")
     demo.add_argument("--statistics", choices=STATISTICS, default="fermi-dirac", help=argparse.SUPPRESS)
@@ -91,11 +106,12 @@ def main(argv=None, console=None, out=None) -> int:
         if console is None:
             to_stdout_machine = args.command == "batch" and args.output in (None, "-")
             console = err_console if to_stdout_machine else Console(highlight=False)
-        from . import _commands, _dataset_cmd, _demo, _profile_cmd
+        from . import _commands, _dataset_cmd, _demo, _models_cmd, _profile_cmd
 
         handler = {"ask": _commands.cmd_ask, "batch": _commands.cmd_batch, "materials": _commands.cmd_materials,
                    "profile": _profile_cmd.cmd_profile, "dataset": _dataset_cmd.cmd_dataset,
-                   "demo": _demo.cmd_demo}[args.command]
+                   "models": _models_cmd.cmd_models, "validate": _models_cmd.cmd_validate,
+                   "train": _models_cmd.cmd_train, "demo": _demo.cmd_demo}[args.command]
         return handler(args, console, out)
     except _errors.UsageError as exc:
         err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, soft_wrap=True)

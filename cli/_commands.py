@@ -17,9 +17,11 @@ from surrogate import INPUT_COLUMNS, normalize_designs
 
 from . import _engines, _errors
 from ._designargs import design_from_args, flag_hint
-from ._render import CAUTION, answer_table, design_line
+from ._render import CAUTION, answer_table, design_line, verify_line
 
-EXTRA_OUTPUTS = ("core_margin", "shell_margin", "junction_edge_nm",  # depletion engine
+EXTRA_OUTPUTS = ("regime_prob", "vbi_low_V", "vbi_high_V", "in_domain", "confirm_with_solver",  # surrogate
+                 "vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V",
+                 "core_margin", "shell_margin", "junction_edge_nm",  # depletion engine
                  "core_majority_ln", "shell_majority_ln", "charge_residual", "iterations", "solver_version")  # solver
 
 
@@ -30,6 +32,7 @@ def _row(table, out, i) -> dict:
     for k, v in out.items():
         x = v[i]
         row[k] = float(x) if isinstance(x, (float, np.floating)) else (x.item() if hasattr(x, "item") else x)
+    row.setdefault("engine", "")
     return row
 
 
@@ -38,18 +41,35 @@ def _json_value(x):
 
 
 def cmd_ask(args, console, out) -> int:
+    import time
+
     design = design_from_args(args)
     table = normalize_designs({k: [v] for k, v in design.items()})
     if table.status[0] != "ok":
         raise _errors.UsageError(flag_hint(str(table.status[0])))
-    result = _engines.run(args.engine, table, args.statistics)
-    # the material's default neutral level, shown explicitly
+    if args.engine == "surrogate":  # load (and verify) the bundle before the clock starts
+        try:
+            surrogate.load(table.material[0], "p" if table.p_core[0] else "n")
+        except surrogate.BundleError:
+            pass  # predict reports it in status
+    t = time.perf_counter()
+    result = _engines.run(args.engine, table, args.statistics, second_opinion=True)
+    elapsed = time.perf_counter() - t
     mat = surrogate.get_material(table.material[0])
-    if math.isnan(table.values["cnl_eV"][0]):
+    if math.isnan(table.values["cnl_eV"][0]):  # show the material's default explicitly
         table.values["cnl_eV"][0] = mat.cnl_eV
     row = _row(table, result, 0)
+    row["seconds"] = elapsed
+    check = None
+    if args.verify and row["status"] == "ok" and args.engine != "solver":
+        t = time.perf_counter()
+        check = _row(table, _engines.run("solver", table, args.statistics), 0)
+        check["seconds"] = time.perf_counter() - t
     if args.json:
-        out.write(json.dumps({k: _json_value(v) for k, v in row.items()}, indent=2) + "\n")
+        data = {k: _json_value(v) for k, v in row.items()}
+        if check is not None:
+            data["verify"] = {k: _json_value(check[k]) for k in ("regime", "vbi_V", "status", "seconds")}
+        out.write(json.dumps(data, indent=2) + "\n")
         return _errors.OK if row["status"] == "ok" else _errors.NO_ANSWER
     console.print(Panel.fit(design_line(row), title=f"radialpn · {args.engine} engine · {args.statistics}",
                             border_style="#5b8def"))
@@ -57,11 +77,15 @@ def cmd_ask(args, console, out) -> int:
         console.print(f"[bold #d9534f]no answer:[/] {row['status']}")
         return _errors.NO_ANSWER
     console.print(answer_table(row))
+    if check is not None:
+        console.print(verify_line(row, check))
     console.print(f"[dim]{CAUTION}[/]")
     return _errors.OK
 
 
 def _fmt_cell(x) -> str:
+    if isinstance(x, (bool, np.bool_)):
+        return "true" if x else "false"
     if isinstance(x, (float, np.floating)):
         return "" if math.isnan(x) else repr(float(x))
     return "" if x is None else str(x)
@@ -85,7 +109,8 @@ def cmd_batch(args, console, out) -> int:
                                  f"{', '.join(INPUT_COLUMNS[:4])})")
     designs = {c: [r.get(c) for r in rows] for c in INPUT_COLUMNS if c in fields}
     table = normalize_designs(designs) if rows else None
-    result = _run_with_progress(args.engine, table, args.statistics, console) if rows else {}
+    result = _run_with_progress(args.engine, table, args.statistics, console,
+                                second_opinion=args.second_opinion) if rows else {}
     out_cols = [c for c in surrogate.OUTPUT_COLUMNS + EXTRA_OUTPUTS if c in result or (not rows and c in surrogate.OUTPUT_COLUMNS)]
     header = fields + [c for c in out_cols if c not in fields]
     target = args.output
@@ -111,10 +136,10 @@ def cmd_batch(args, console, out) -> int:
     return _errors.OK
 
 
-def _run_with_progress(engine, table, statistics, console, chunk=4000):
+def _run_with_progress(engine, table, statistics, console, chunk=4000, **options):
     """Run an engine over a table; slow engines go chunk by chunk under a progress bar."""
-    if engine == "depletion" or table.n <= chunk:
-        return _engines.run(engine, table, statistics)
+    if engine == "depletion" or table.n <= chunk or (engine == "surrogate" and not options.get("second_opinion")):
+        return _engines.run(engine, table, statistics, **options)
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
     parts = []
@@ -125,7 +150,7 @@ def _run_with_progress(engine, table, statistics, console, chunk=4000):
 
         t0 = time.perf_counter()
         for start in range(0, table.n, chunk):
-            parts.append(_engines.run(engine, table.take(slice(start, start + chunk)), statistics))
+            parts.append(_engines.run(engine, table.take(slice(start, start + chunk)), statistics, **options))
             done = min(start + chunk, table.n)
             bar.update(task, completed=done, rate=f"{done / (time.perf_counter() - t0):,.0f} rows/s")
     return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}

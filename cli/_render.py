@@ -60,10 +60,16 @@ def answer_table(row: dict) -> Table:
     t.add_column(style="dim", no_wrap=True)
     t.add_column()
     regime = row["regime"]
-    t.add_row("regime", Text.assemble(regime_text(regime), "  ", Text(REGIME_STYLE[regime][2], style="italic")))
+    prob = f"  (probability {row['regime_prob']:.3f})" if "regime_prob" in row else ""
+    t.add_row("regime", Text.assemble(regime_text(regime), prob, "  ", Text(REGIME_STYLE[regime][2], style="italic")))
     kept = row["vbi_V"] / row["vbi0_V"] if row["vbi0_V"] else float("nan")
-    t.add_row("built-in potential V_bi", Text.assemble((fmt(row["vbi_V"], "V"), "bold"),
+    interval = (f"  95 % interval [{row['vbi_low_V']:.4f}, {row['vbi_high_V']:.4f}] V"
+                if "vbi_low_V" in row else "")
+    t.add_row("built-in potential V_bi", Text.assemble((fmt(row["vbi_V"], "V"), "bold"), interval,
                                                        f"   ({kept:.1%} of the bulk V_bi0)"))
+    if "vbi_gp_V" in row and row["vbi_gp_V"] == row["vbi_gp_V"]:
+        t.add_row("second opinion (GP)", f"{row['vbi_gp_V']:.4f} V  [{row['vbi_gp_low_V']:.4f}, "
+                  f"{row['vbi_gp_high_V']:.4f}] V")
     t.add_row("bulk V_bi0", fmt(row["vbi0_V"], "V"))
     t.add_row("core neutral radius", f"{fmt(row['core_neutral_radius_nm'], 'nm')} of {fmt(row['core_radius_nm'], 'nm')}")
     t.add_row("shell neutral thickness", f"{fmt(row['shell_neutral_nm'], 'nm')} of {fmt(row['shell_thickness_nm'], 'nm')}")
@@ -74,7 +80,26 @@ def answer_table(row: dict) -> Table:
             t.add_row("boundary margins", f"core {row[core]:+.3f}, shell {row[shell]:+.3f}  ({what}: >0 keeps a "
                       "neutral region, 0 is the regime boundary)")
     t.add_row("cross-section", Text.assemble(cross_section(row), Text("  axis → surface", style="dim")))
+    if "in_domain" in row:
+        t.add_row("trained domain", "inside" if row["in_domain"] else "OUTSIDE (no answer)")
+    if row.get("confirm_with_solver"):
+        t.add_row("", Text("⚑ uncertain here: confirm with --verify or --engine solver", style="bold #e0a526"))
+    if "seconds" in row:
+        t.add_row("answered in", f"{1e3 * row['seconds']:.2f} ms by the {row['engine']} engine")
     return t
+
+
+def verify_line(row: dict, check: dict) -> Text:
+    """One line comparing an answer with the reference solver's."""
+    same = row["regime"] == check["regime"]
+    text = Text("verify  ", style="bold")
+    text.append(f"solver: {check['regime']}, V_bi {check['vbi_V']:.4f} V in {1e3 * check['seconds']:.1f} ms · ")
+    text.append("same regime" if same else "REGIME DIFFERS", style="#3aa876" if same else "bold #d9534f")
+    text.append(f" · V_bi difference {1e3 * (row['vbi_V'] - check['vbi_V']):+.2f} mV")
+    if "vbi_low_V" in row:
+        inside = row["vbi_low_V"] <= check["vbi_V"] <= row["vbi_high_V"]
+        text.append(" (inside the interval)" if inside else " (outside the interval)")
+    return text
 
 
 def design_line(row: dict) -> str:

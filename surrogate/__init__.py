@@ -16,12 +16,15 @@ from ._materials import (
     Material, get_material, load_material_file, material_from_dict, material_names,
     register_material,
 )
+from ._bundle import BundleError
+from ._model import SurrogateModel, available, load, load_bundle, predict
 from ._profiles import depletion_profile
 from ._statistics import fermi_half, fermi_half_inverse, intrinsic_density, reduced_level
 
 __version__ = "0.1.0"
 
 __all__ = [
+    "BundleError", "SurrogateModel", "available", "load", "load_bundle", "predict",
     "CORE_TYPES", "INPUT_COLUMNS", "NUMERIC_COLUMNS", "OUTPUT_COLUMNS", "REGIMES", "DesignError", "DesignTable",
     "Material", "MaterialError", "RadialpnError", "check_design", "deplete", "depletion_profile",
     "fermi_half", "fermi_half_inverse", "get_material", "intrinsic_density",

@@ -105,7 +105,7 @@ def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     i = np.flatnonzero(fj1 > 0.0)
     pj = {k: v[i] for k, v in pj.items()}
     q0 = np.sqrt(2.0 * np.maximum(pj["vbi0"], 0.0) / (pj["A"] * (1.0 + pj["ratio"])))  # planar limit
-    q_j, it_j = solve_bracketed(fj, pj, zero[i], one[i], True, x0=np.minimum(q0, 0.999))
+    q_j, it_j = solve_bracketed(fj, pj, zero[i], one[i], x0=np.minimum(q0, 0.999))
     u_j[i] = 1.0 - q_j
     w_j = 1.0 + ratio * (1.0 - u_j)
 
@@ -122,7 +122,7 @@ def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     ps = {k: v[i] for k, v in ps.items()}
     b, pos = ps["L"], np.maximum(ps["phi0"], 0.0)
     q0 = 2.0 * ps["D"] * pos / (b + np.sqrt(b * b + 2.0 * ps["D"] ** 2 * ps["C"] * pos))  # h(1-q) ~ q^2/2
-    q_s, it_s = solve_bracketed(fs, ps, zero[i], one[i], True, x0=np.minimum(q0, 0.999))
+    q_s, it_s = solve_bracketed(fs, ps, zero[i], one[i], x0=np.minimum(q0, 0.999))
     v_s[i] = 1.0 - q_s
     r_n = a * np.sqrt(w_j)
     r_s = R * np.sqrt(v_s)
@@ -153,7 +153,7 @@ def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     interior = fc0 < 0.0
     c = c[interior]
     pc = {k: v[interior] for k, v in pc.items()}
-    s_c, it_c = solve_bracketed(fc, pc, zero[c], one[c], True, x0=np.sqrt(u_j[c]))
+    s_c, it_c = solve_bracketed(fc, pc, zero[c], one[c], x0=np.sqrt(u_j[c]))
     u[c] = s_c * s_c
     w = 1.0 + ratio * (1.0 - u)
     return dict(K=K, vbi0=vbi0, phi0=phi0, u=u, w=w, v=v_s, r_n=r_n, r_s=r_s, coupled=coupled,
@@ -207,8 +207,10 @@ def _prepare(table: DesignTable, statistics: str):
     shell_dos = np.where(p, mat["nc_cm3"], mat["nv_cm3"])
     ok = table.ok
     safe = lambda x, fill: np.where(ok, x, fill)  # noqa: E731  keep invalid rows finite
-    dp = bulk_levels(safe(v["core_doping_cm3"], 1e17), safe(core_dos, 1e18), safe(kt, 0.025), statistics)
-    dn = bulk_levels(safe(v["shell_doping_cm3"], 1e17), safe(shell_dos, 1e18), safe(kt, 0.025), statistics)
+    kt2 = np.tile(safe(kt, 0.025), 2)  # both regions in one call (one Newton loop)
+    levels = bulk_levels(np.concatenate([safe(v["core_doping_cm3"], 1e17), safe(v["shell_doping_cm3"], 1e17)]),
+                         np.concatenate([safe(core_dos, 1e18), safe(shell_dos, 1e18)]), kt2, statistics)
+    dp, dn = levels[:table.n], levels[table.n:]
     a = safe(v["core_radius_nm"], 50.0) * NM
     return dict(
         NA=safe(v["core_doping_cm3"], 1e17) * CM3_TO_M3, ND=safe(v["shell_doping_cm3"], 1e17) * CM3_TO_M3,

@@ -20,7 +20,8 @@ ETA_HI = 40.0  #: above this, the Sommerfeld expansion is used [1]
 TABLE_STEP = 0.02  #: spacing of the ln F_1/2 Hermite table [1]
 _GL_ORDER = 16  #: Gauss-Legendre points per panel when building the table
 _PANEL = 0.125  #: panel width in t = sqrt(x) when building the table
-INVERSE_TOL = 1e-12  #: Newton stopping tolerance on eta for the inverse [1]
+INVERSE_TOL = 1e-12  #: target accuracy of eta for the inverse [1]
+_NEWTON_STOP = 1e-6  #: a Newton step below this leaves an error ~ step^2 < INVERSE_TOL
 
 _SQRT_PI = np.sqrt(np.pi)
 _table = None  # (eta nodes, ln F_1/2, d ln F_1/2 / d eta)
@@ -71,6 +72,8 @@ def fermi_half_and_derivative(eta):
     """
     eta = np.asarray(eta, dtype=float)
     nodes, lnf, dlnf = _get_table()
+    if eta.size and ETA_LO <= eta.min() and eta.max() <= ETA_HI:  # common case: all in the table
+        return _table_eval(eta, lnf, dlnf)
     f = np.empty_like(eta)
     df = np.empty_like(eta)
     lo = eta < ETA_LO
@@ -83,21 +86,24 @@ def fermi_half_and_derivative(eta):
     if hi.any():
         f[hi], df[hi] = _sommerfeld(eta[hi])
     if mid.any():
-        em = eta[mid]
-        s = (em - ETA_LO) / TABLE_STEP
-        i = np.minimum(s.astype(np.intp), nodes.size - 2)
-        u = s - i
-        h = TABLE_STEP
-        y0, y1 = lnf[i], lnf[i + 1]
-        d0, d1 = dlnf[i] * h, dlnf[i + 1] * h
-        u2 = u * u
-        u3 = u2 * u
-        g = (2 * u3 - 3 * u2 + 1) * y0 + (u3 - 2 * u2 + u) * d0 + (-2 * u3 + 3 * u2) * y1 + (u3 - u2) * d1
-        dg = ((6 * u2 - 6 * u) * y0 + (3 * u2 - 4 * u + 1) * d0 + (-6 * u2 + 6 * u) * y1 + (3 * u2 - 2 * u) * d1) / h
-        fm = np.exp(g)
-        f[mid] = fm
-        df[mid] = fm * dg
+        f[mid], df[mid] = _table_eval(eta[mid], lnf, dlnf)
     return f, df
+
+
+def _table_eval(em, lnf, dlnf):
+    """F_1/2 and its derivative from the Hermite table of ln F_1/2 (eta inside the table)."""
+    s = (em - ETA_LO) / TABLE_STEP
+    i = np.minimum(s.astype(np.intp), lnf.size - 2)
+    u = s - i
+    h = TABLE_STEP
+    y0, y1 = lnf[i], lnf[i + 1]
+    d0, d1 = dlnf[i] * h, dlnf[i + 1] * h
+    u2 = u * u
+    u3 = u2 * u
+    g = (2 * u3 - 3 * u2 + 1) * y0 + (u3 - 2 * u2 + u) * d0 + (-2 * u3 + 3 * u2) * y1 + (u3 - u2) * d1
+    dg = ((6 * u2 - 6 * u) * y0 + (3 * u2 - 4 * u + 1) * d0 + (-6 * u2 + 6 * u) * y1 + (3 * u2 - 2 * u) * d1) / h
+    fm = np.exp(g)
+    return fm, fm * dg
 
 
 def fermi_half(eta):
@@ -157,7 +163,7 @@ def fermi_half_inverse(y):
         f, df = fermi_half_and_derivative(eta[active])
         d = (np.log(f) - lny[active]) * f / df
         eta[active] -= d
-        active = active[np.abs(d) >= INVERSE_TOL * np.maximum(1.0, np.abs(eta[active]))]
+        active = active[np.abs(d) >= _NEWTON_STOP * np.maximum(1.0, np.abs(eta[active]))]
         if not active.size:
             break
     return eta.reshape(y.shape)

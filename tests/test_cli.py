@@ -29,7 +29,7 @@ def test_ask_renders_answer_and_caution():
 
 
 def test_ask_json_matches_library():
-    code, _, out = run(ASK + ["--json", "--statistics", "boltzmann"])
+    code, _, out = run(ASK + ["--json", "--statistics", "boltzmann", "--engine", "depletion"])
     row = json.loads(out)
     lib = surrogate.deplete(dict(material="GaAs", core_type="p", core_radius_nm=60, shell_thickness_nm=40,
                                  core_doping_cm3=1e18, shell_doping_cm3=1e18, dit_cm2eV=1e12), "boltzmann")
@@ -57,7 +57,7 @@ def test_unknown_flag_one_line():
 
 def test_no_answer_exit_3():
     code, text, _ = run(["ask", "--material", "InAs", "--core-type", "p", "--core-radius", "50", "--shell-thickness",
-                         "30", "--core-doping", "1e17", "--shell-doping", "1e17", "--dit", "1e12"])
+                         "30", "--core-doping", "1e17", "--shell-doping", "1e17", "--dit", "1e12", "--engine", "depletion"])
     assert code == 3 and "surface accumulates" in text
 
 
@@ -117,7 +117,7 @@ def test_user_materials_flag(tmp_path):
     f = tmp_path / "m.toml"
     f.write_text("[Demoide]\nband_gap_300_eV=1.5\nvarshni_alpha_eV_K=5e-4\nvarshni_beta_K=200\npermittivity_rel=12\n"
                  "nc_300_cm3=5e17\nnv_300_cm3=9e18\ncnl_eV=0.55\n")
-    argv = ["--materials", str(f)] + ASK
+    argv = ["--materials", str(f)] + ASK + ["--engine", "depletion"]
     argv[argv.index("GaAs")] = "demoide"
     code, text, _ = run(argv)
     assert code == 0 and "Demoide" in text
@@ -162,3 +162,47 @@ def test_batch_solver_engine(tmp_path):
     assert got[0]["engine"] == "solver" and got[0]["status"] == "ok" and got[1]["status"] == "ok"
     assert got[2]["status"].startswith("core_radius_nm") and got[2]["vbi_V"] == ""
     assert float(got[0]["charge_residual"]) < 1e-6
+
+
+SURR = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "45nm", "--shell-thickness", "30nm",
+        "--core-doping", "5e17", "--shell-doping", "2e18", "--dit", "5e12"]
+
+
+def test_ask_defaults_to_surrogate_with_interval_and_verify():
+    code, _, out = run(SURR + ["--json", "--verify"])
+    row = json.loads(out)
+    assert code == 0 and row["engine"] == "surrogate" and row["in_domain"] is True
+    assert row["vbi_low_V"] <= row["vbi_V"] <= row["vbi_high_V"] and 0 < row["regime_prob"] <= 1
+    assert row["verify"]["status"] == "ok" and row["verify"]["regime"] in surrogate.REGIMES
+    # the solver's answer lies within the bundle's stated accuracy (p99 error ~8 mV, card)
+    assert abs(row["vbi_V"] - row["verify"]["vbi_V"]) < 0.02
+
+
+def test_ask_outside_domain_no_answer():
+    argv = list(SURR)
+    argv[argv.index("45nm")] = "800nm"
+    code, text, _ = run(argv)
+    assert code == 3 and "outside the model's domain" in " ".join(text.split())
+
+
+def test_batch_surrogate_second_opinion(tmp_path):
+    src = tmp_path / "in.csv"
+    src.write_text("name,material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
+                   "a,GaAs,p,60,40,1e18,1e18,1e12\nb,GaAs,n,45,30,5e17,2e18,5e12\nc,GaAs,p,900,40,1e18,1e18,1e12\n"
+                   "d,InP,p,60,40,1e18,1e18,1e12\n")
+    code, _, out = run(["batch", str(src), "--second-opinion"])
+    got = list(csv.DictReader(io.StringIO(out)))
+    assert code == 0 and [g["name"] for g in got] == ["a", "b", "c", "d"]
+    assert got[0]["in_domain"] == "true" and float(got[0]["vbi_gp_V"]) > 0 and got[0]["status"] == "ok"
+    assert got[2]["in_domain"] == "false" and got[2]["vbi_V"] == ""
+    assert "no surrogate bundle for InP" in got[3]["status"]
+
+
+def test_models_lists_bundles():
+    code, text, _ = run(["models"])
+    assert code == 0 and "gaas-pcore" in text and "gaas-ncore" in text
+
+
+def test_validate_small_no_write():
+    code, text, _ = run(["validate", "gaas-pcore", "--rows", "300", "--no-write", "--seed", "5"])
+    assert code == 0 and "regime accuracy" in text and "confusion" in text

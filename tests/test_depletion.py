@@ -230,3 +230,18 @@ def test_accumulating_surface_is_reported_not_answered():
     out = deplete(dict(material="InAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30,
                        core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e12))
     assert out["status"][0].startswith("surface accumulates") and math.isnan(out["vbi_V"][0])
+
+
+def test_empty_subset_costs_no_iterations():
+    # Regression: with no coupled designs the coupled root loop used to run ROOT_MAXITER empty
+    # passes (4.8 ms per single query). The root finder must return at once on empty input.
+    from surrogate._roots import solve_bracketed
+
+    calls = []
+
+    def f(x, p):
+        calls.append(1)
+        return x - 0.5, np.ones_like(x)
+
+    x, it = solve_bracketed(f, {}, np.zeros(0), np.ones(0))
+    assert x.size == 0 and it.size == 0 and len(calls) == 0

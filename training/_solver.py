@@ -43,7 +43,8 @@ def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics):
 
     lo = np.full_like(N, -3.0)
     hi = Eg + 3.0
-    y, _ = solve_bracketed(f, p, lo, hi, True, xtol=1e-13)
+    with np.errstate(all="ignore"):
+        y, _ = solve_bracketed(f, p, lo, hi, xtol=1e-13)
     return y
 
 

@@ -1,0 +1,79 @@
+"""Surrogate speed (not a test: prints figures), against the reference solver in the same run.
+
+    python benchmarks/bench_surrogate.py [--rows 200000] [--solver-rows 4000]
+
+Prints: warm single-query latency through the Python API (median of 500), batch throughput
+with the numpy evaluator only and with scikit-learn's compiled trees (when installed), the
+second-opinion (GP) batch throughput, and the reference solver's throughput on the same kind
+of designs, with the ratios.
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import numpy as np
+
+import surrogate
+from training import solve
+
+
+def designs(n, seed=3):
+    rng = np.random.default_rng(seed)
+    return dict(material="GaAs", core_type="p", core_radius_nm=10 ** rng.uniform(1, np.log10(300), n),
+                shell_thickness_nm=10 ** rng.uniform(np.log10(2), np.log10(300), n),
+                core_doping_cm3=10 ** rng.uniform(16, 19, n), shell_doping_cm3=10 ** rng.uniform(16, 19, n),
+                dit_cm2eV=10 ** rng.uniform(10, 14, n), cnl_eV=rng.uniform(0.3, 0.7, n),
+                temperature_K=rng.uniform(250, 400, n))
+
+
+def rate(fn, n, repeat=3):
+    best = min(_t(fn) for _ in range(repeat))
+    return n / best
+
+
+def _t(fn):
+    t = time.perf_counter()
+    fn()
+    return time.perf_counter() - t
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--rows", type=int, default=200000)
+    ap.add_argument("--solver-rows", type=int, default=4000)
+    a = ap.parse_args()
+    m = surrogate.load("GaAs", "p")
+    one = {k: (v[0] if np.ndim(v) else v) for k, v in designs(1).items()}
+    m.predict(one)
+    lat = []
+    for _ in range(500):
+        t = time.perf_counter()
+        m.predict(one)
+        lat.append(time.perf_counter() - t)
+    lat2 = []
+    for _ in range(200):
+        t = time.perf_counter()
+        m.predict(one, second_opinion=True)
+        lat2.append(time.perf_counter() - t)
+    d = designs(a.rows)
+    m.predict(designs(600))  # turn on (and verify) the compiled path
+    accel = bool(m.forest_._accel)
+    fast = rate(lambda: m.predict(d), a.rows)
+    saved, m.forest_._accel = m.forest_._accel, False
+    slow = rate(lambda: m.predict({k: (v[:20000] if np.ndim(v) else v) for k, v in d.items()}), 20000, 1)
+    m.forest_._accel = saved
+    gp = rate(lambda: m.predict({k: (v[:50000] if np.ndim(v) else v) for k, v in d.items()}, True), 50000, 1)
+    s = designs(a.solver_rows, seed=4)
+    sol = rate(lambda: solve(s, n_jobs=-1), a.solver_rows, 1)
+    print(f"surrogate {m.name}: single query median {1e3 * np.median(lat):.3f} ms "
+          f"(with GP second opinion {1e3 * np.median(lat2):.3f} ms)")
+    print(f"  batch of {a.rows:,}: {fast:,.0f} designs/s ({'scikit-learn compiled trees' if accel else 'numpy only'}); "
+          f"numpy-only evaluator {slow:,.0f} designs/s; with GP second opinion {gp:,.0f} designs/s")
+    print(f"  reference solver (all cores): {sol:,.0f} designs/s -> surrogate batch is x{fast / sol:,.0f} faster, "
+          f"a single surrogate query x{1 / np.median(lat) / sol:,.1f} the solver's per-design rate")
+
+
+if __name__ == "__main__":
+    main()

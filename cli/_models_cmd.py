@@ -1,0 +1,103 @@
+"""`radialpn models`, `radialpn validate`, `radialpn train`: the surrogate bundles."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from rich.markup import escape
+from rich.table import Table
+
+import surrogate
+
+from . import _errors
+
+
+def _bundle_path(name_or_path: str) -> Path:
+    p = Path(name_or_path)
+    if (p / "bundle.json").is_file():
+        return p
+    from surrogate._bundle import find_bundles
+
+    found = find_bundles()
+    if name_or_path in found:
+        return found[name_or_path]
+    raise _errors.UsageError(f"bundle: no bundle {name_or_path!r} (installed: {', '.join(found) or 'none'})")
+
+
+SHORT = {"core_radius_nm": "core [nm]", "shell_thickness_nm": "shell [nm]", "core_doping_cm3": "N core [cm⁻³]",
+         "shell_doping_cm3": "N shell [cm⁻³]", "dit_cm2eV": "D_it [cm⁻²eV⁻¹]", "cnl_eV": "E_cnl [eV]",
+         "temperature_K": "T [K]", "interlayer_nm": "interlayer [nm]"}
+
+
+def cmd_models(args, console, out) -> int:
+    rows = surrogate.available()
+    if not rows:
+        console.print("No surrogate bundles installed. Build one with `radialpn train models/specs/NAME.toml`.")
+        return _errors.OK
+    table = Table(title="Surrogate bundles (accuracy against fresh reference-solver runs)", title_justify="left")
+    for col in ("bundle", "wire", "domain", "regime acc.", "V_bi mean / p99", "95 % coverage"):
+        table.add_column(col, no_wrap=col in ("domain", "bundle"))
+    for name, material, core_type, path in rows:
+        try:
+            meta = json.loads((path / "bundle.json").read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            table.add_row(name, "?", "unreadable bundle.json", "", "", "")
+            continue
+        domain = meta.get("domain", {})
+        dom = "\n".join(escape(f"{SHORT[k]} {domain[k][0]:g}–{domain[k][1]:g}") for k in SHORT if k in domain)
+        v = meta.get("validation") or {}
+        table.add_row(name, f"{material} {core_type}-core\n{meta.get('statistics', '')}", dom,
+                      f"{v['regime_accuracy']:.2%}" if v else "not validated",
+                      f"{v['vbi_mean_mV']:.2f} / {v['vbi_p99_mV']:.1f} mV" if v else "",
+                      f"{v['interval_coverage']:.1%}" if v else "")
+    console.print(table)
+    console.print("[dim]Model cards: CARD.md in each bundle directory. Answers are design estimates.[/]")
+    return _errors.OK
+
+
+def cmd_validate(args, console, out) -> int:
+    from training import validate_bundle
+
+    if args.rows < 100:
+        raise _errors.UsageError(f"--rows: allowed range [100, 10000000] (got {args.rows})")
+    path = _bundle_path(args.bundle)
+    with console.status(f"solving {args.rows:,} fresh designs and comparing…"):
+        v = validate_bundle(path, rows=args.rows, seed=args.seed, write=not args.no_write)
+    t = Table(title=f"{path.name}: {v['answered']:,} fresh solver runs (seed {v['seed']})", title_justify="left")
+    t.add_column("metric")
+    t.add_column("value", justify="right")
+    for label, value in (
+        ("regime accuracy", f"{v['regime_accuracy']:.4f}"),
+        (f"  near a boundary ({v['near_boundary_rows']} rows)", f"{v['regime_accuracy_near_boundary']:.4f}"),
+        ("V_bi mean error", f"{v['vbi_mean_mV']:.2f} mV"), ("V_bi 99th percentile", f"{v['vbi_p99_mV']:.2f} mV"),
+        ("V_bi maximum", f"{v['vbi_max_mV']:.2f} mV"),
+        (f"{v['interval_level']:.0%} interval coverage", f"{v['interval_coverage']:.4f}"),
+        ("GP V_bi mean error / coverage", f"{v['gp_vbi_mean_mV']:.2f} mV / {v['gp_interval_coverage']:.4f}"),
+        ("flagged for the solver", f"{v['flagged_rate']:.2%}"),
+    ):
+        t.add_row(label, value)
+    console.print(t)
+    conf = Table(title="confusion (rows: solver, columns: surrogate)", title_justify="left")
+    conf.add_column("")
+    for lab in v["confusion"]["labels"]:
+        conf.add_column(lab, justify="right")
+    for lab, row in zip(v["confusion"]["labels"], v["confusion"]["rows_true_cols_pred"]):
+        conf.add_row(lab, *map(str, row))
+    console.print(conf)
+    if not args.no_write:
+        console.print(f"[dim]report stored in {path / 'bundle.json'} and {path / 'CARD.md'}[/]")
+    return _errors.OK
+
+
+def cmd_train(args, console, out) -> int:
+    from training import load_spec, train_bundle
+
+    spec = load_spec(args.spec)
+    data = args.data or str(Path("data") / spec.name)
+    dest = args.output or str(Path("models") / spec.name)
+    report = train_bundle(args.spec, data, dest, n_jobs=args.jobs, log=lambda m: console.print(f"[dim]{m}[/]"))
+    console.print(f"{dest}: regime accuracy {report['regime_accuracy']:.4f}, V_bi mean {report['vbi_mean_mV']:.2f} mV, "
+                  f"p99 {report['vbi_p99_mV']:.2f} mV, coverage {report['interval_coverage']:.4f} "
+                  f"({report['rows']:,} fresh solver runs). Card: {dest}/CARD.md")
+    return _errors.OK

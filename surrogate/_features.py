@@ -1,0 +1,47 @@
+"""Model features: the design variables in their natural transforms plus what the depletion
+engine says about the design (the physics does most of the work; the trees learn what the
+approximation misses). One definition, used to fit the surrogates and to run them."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ._constants import EPS0, K_B_EV, NM, Q
+from ._depletion import _deplete_table, material_arrays
+from ._design import REGIMES, DesignTable
+
+FEATURES_VERSION = 1  #: bump when a feature changes: bundles record the version they need
+FEATURE_NAMES = (
+    "log10_core_radius_nm", "log10_shell_thickness_nm", "log10_core_doping_cm3", "log10_shell_doping_cm3",
+    "log10_dit_cm2eV", "cnl_eV", "temperature_K",
+    "da_vbi_V", "da_vbi0_V", "da_vbi_fraction", "da_core_margin", "da_shell_margin", "da_surface_bending_V",
+    "da_surface_barrier_V", "da_regime", "log10_core_radius_debye", "log10_shell_thickness_debye",
+    "da_core_neutral_debye", "da_shell_neutral_debye",
+)
+
+
+def features(table: DesignTable, statistics: str = "fermi-dirac"):
+    """Feature matrix X (n, len(FEATURE_NAMES)) [mixed units, see names] and the depletion
+    engine's output mapping for the rows of a validated table. Rows the engine cannot answer
+    get NaN depletion features (the trees route missing values)."""
+    da = _deplete_table(table, statistics)
+    v = table.values
+    mat = material_arrays(table.material, v["temperature_K"], statistics)
+    a, t = v["core_radius_nm"], v["shell_thickness_nm"]
+    na, nd = v["core_doping_cm3"], v["shell_doping_cm3"]
+    cnl = np.where(np.isnan(v["cnl_eV"]), mat["cnl_eV"], v["cnl_eV"])
+    eps = mat["permittivity_rel"] * EPS0
+    kt = K_B_EV * v["temperature_K"]
+    with np.errstate(all="ignore"):
+        ld_core = np.sqrt(eps * kt / (Q * na * 1e6)) / NM  # Debye lengths [nm]
+        ld_shell = np.sqrt(eps * kt / (Q * nd * 1e6)) / NM
+        code = np.full(table.n, np.nan)
+        for i, r in enumerate(REGIMES):
+            code[da["regime"] == r] = i
+        X = np.column_stack([
+            np.log10(a), np.log10(t), np.log10(na), np.log10(nd), np.log10(np.maximum(v["dit_cm2eV"], 1e-30)), cnl,
+            v["temperature_K"], da["vbi_V"], da["vbi0_V"], da["vbi_V"] / da["vbi0_V"], da["core_margin"],
+            da["shell_margin"], da["surface_bending_V"], da["surface_barrier_V"], code, np.log10(a / ld_core),
+            np.log10(t / ld_shell), da["core_margin"] * a / ld_core, da["shell_margin"] * t / ld_shell,
+        ])
+    return X, da

@@ -1,0 +1,115 @@
+"""The model card of a bundle (Markdown), rendered from its metadata and validation report."""
+
+from __future__ import annotations
+
+import datetime
+
+TARGETS = {  # issue 5's targets, measured on fresh solver runs
+    "regime_accuracy": (">=", 0.995), "vbi_mean_mV": ("<=", 3.0), "vbi_p99_mV": ("<=", 20.0),
+    "interval_coverage": ("in", (0.94, 0.97)),
+}
+
+
+def _meets(key, value):
+    op, t = TARGETS[key]
+    if value is None:
+        return "—"
+    ok = value >= t if op == ">=" else value <= t if op == "<=" else t[0] <= value <= t[1]
+    return "met" if ok else "**missed**"
+
+
+def render_card(meta: dict) -> str:
+    v = meta.get("validation")
+    dom = "\n".join(f"| {k} | {lo:g} | {hi:g} | {meta['transforms'].get(k, 'linear')} |"
+                    for k, (lo, hi) in meta["domain"].items())
+    fixed = ", ".join(f"{k} = {x:g}" for k, x in meta.get("fixed", {}).items()) or "none"
+    lines = [
+        f"# Model card: {meta['name']}",
+        "",
+        f"Surrogate of radialpn's reference Poisson solver for **{meta['material']} {meta['core_type']}-core** "
+        f"radial p-n nanowires ({meta['statistics']} statistics): the depletion regime with its probability and "
+        "the built-in potential V_bi with a 95 % interval, plus neutral extents and surface bending.",
+        "",
+        "**Answers are design estimates, not measurements.** Confirm a design with measurements on grown wires "
+        "before committing a growth campaign to it; designs flagged `confirm_with_solver` should first be "
+        "re-run with `--engine solver` (or `ask --verify`).",
+        "",
+        "## Intended use",
+        "Screening, maps, critical dimensions and growth-tolerance studies inside the domain below, at the "
+        "reactor or inside other pipelines (`import surrogate`, numpy only). Not for: designs outside the "
+        "domain (the model refuses them), other materials or statistics, device currents.",
+        "",
+        "## Domain",
+        "| variable | min | max | sampled as |", "| --- | --- | --- | --- |", dom, "",
+        f"Fixed: {fixed}. Outside this box a row gets `in_domain = false`, a status and no numbers.",
+        "",
+        "## Data",
+        f"- Training set: {meta['data']['training_rows']:,} solver runs (scrambled Sobol points in the "
+        "transformed domain, then refinement rounds between near neighbours of different regimes); "
+        f"calibration: {meta['data']['calibration_rows']:,} uniform runs of their own seed.",
+        f"- Reference solver version {meta['solver_version']}; spec SHA-256 `{meta['spec_sha256'][:16]}…`; "
+        f"features version {meta['features_version']}.",
+        "",
+        "## Models",
+        f"- Regime: gradient-boosted classifier ({meta['models']['regime']}), probabilities temperature-scaled "
+        f"(T = {meta['temperature']:.3f}) on the calibration set.",
+        f"- V_bi: gradient-boosted regressor of the residual to the depletion approximation "
+        f"({meta['models']['vbi']}); 95 % split-conformal intervals normalised by a difficulty model "
+        f"(q = {meta['conformal']['q_gbm']:.3f}).",
+        f"- Second opinion: Gaussian process `{meta['models']['gp']['kernel']}` on a "
+        f"{meta['models']['gp']['mean_points']}-point Sobol prefix (std from {meta['models']['gp']['std_points']} "
+        f"points, float64), rescaled by its own conformal quantile (q = {meta['conformal']['q_gp']:.3f}).",
+        "",
+    ]
+    if v:
+        conf = v["confusion"]
+        lines += [
+            "## Validation",
+            f"{v['rows']:,} fresh solver runs drawn uniformly in the domain (seed {v['seed']}, never used in "
+            f"fitting or calibration), {v['answered']:,} answered by both.",
+            "",
+            "| metric | value | target |", "| --- | --- | --- |",
+            f"| regime accuracy | {v['regime_accuracy']:.4f} | >= 0.995 ({_meets('regime_accuracy', v['regime_accuracy'])}) |",
+            f"| regime accuracy near a boundary ({v['near_boundary_rows']} rows, majority margin within a factor e) | "
+            f"{v['regime_accuracy_near_boundary']:.4f} | — |",
+            f"| V_bi mean error | {v['vbi_mean_mV']:.2f} mV | <= 3 mV ({_meets('vbi_mean_mV', v['vbi_mean_mV'])}) |",
+            f"| V_bi 99th percentile error | {v['vbi_p99_mV']:.2f} mV | <= 20 mV ({_meets('vbi_p99_mV', v['vbi_p99_mV'])}) |",
+            f"| V_bi maximum error | {v['vbi_max_mV']:.2f} mV | — |",
+            f"| 95 % interval coverage | {v['interval_coverage']:.4f} | 0.94-0.97 "
+            f"({_meets('interval_coverage', v['interval_coverage'])}) |",
+            f"| mean interval width | {v['interval_mean_width_mV']:.2f} mV | — |",
+            f"| GP V_bi mean / p99 error | {v['gp_vbi_mean_mV']:.2f} / {v['gp_vbi_p99_mV']:.2f} mV | — |",
+            f"| GP interval coverage | {v['gp_interval_coverage']:.4f} | — |",
+            f"| flagged for the solver (low regime probability or GP disagreement) | {v['flagged_rate']:.2%} | — |",
+            "",
+            "Confusion matrix (rows: solver, columns: surrogate):",
+            "",
+            "| | " + " | ".join(conf["labels"]) + " |", "| --- " * (len(conf["labels"]) + 1) + "|",
+            *[f"| {a} | " + " | ".join(str(x) for x in row) + " |" for a, row in zip(conf["labels"], conf["rows_true_cols_pred"])],
+            "",
+            "Where each model kind is better (mean V_bi error by solver regime):",
+            "",
+            "| regime | rows | trees | Gaussian process |", "| --- | --- | --- | --- |",
+            *[f"| {r} | {x['rows']} | {x['gbm_mean_mV']:.2f} mV | {x['gp_mean_mV']:.2f} mV |"
+              for r, x in v["by_regime"].items() if x["rows"]],
+            "",
+            f"The flag earns its place: flagged rows have mean V_bi error {v['flagged_gbm_mean_mV'] or 0:.2f} mV and "
+            f"regime accuracy {v['flagged_regime_accuracy'] or 0:.4f}; unflagged rows {v['unflagged_gbm_mean_mV']:.2f} mV "
+            f"and {v['unflagged_regime_accuracy']:.4f}.",
+            "",
+        ]
+    lines += [
+        "## Limits",
+        "- Physics of the reference solver: full ionisation, surface states uniform in energy about one neutral "
+        "level, no fixed charge, no interlayer (fixed to 0), equilibrium (no light, no bias).",
+        "- The regime is the solver's: a region keeps a neutral part where its majority-carrier density reaches half "
+        "its doping. Near that boundary the answer is genuinely uncertain; read `regime_prob`.",
+        "- Intervals hold on average over the domain (marginal coverage), not for every single design.",
+        "",
+        "## Rebuild",
+        f"`radialpn train models/specs/{meta['name']}.toml` (dataset, fit, validation and this card; resumable).",
+        "",
+        f"Card written {datetime.date.today().isoformat()} by radialpn.",
+        "",
+    ]
+    return "\n".join(lines)

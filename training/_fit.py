@@ -1,0 +1,159 @@
+"""Fit a surrogate bundle from a training set (issue 5 of the project's design).
+
+Models (scikit-learn, exported to plain arrays):
+- regime: HistGradientBoostingClassifier on the features of surrogate/_features.py, class
+  probabilities calibrated by temperature scaling on the calibration split (Guo et al., ICML
+  2017, "On calibration of modern neural networks", sec. 4.2);
+- V_bi: HistGradientBoostingRegressor for the residual (solver V_bi - depletion V_bi);
+- difficulty: a small regressor of log|residual| fitted on 2-fold out-of-fold residuals;
+  V_bi intervals are normalised split-conformal, [pred - q s(x), pred + q s(x)] with q the
+  ceil((n+1)(1-alpha))-th smallest of |y - pred| / s(x) on the calibration split (Lei et al.,
+  J. Am. Stat. Assoc. 113, 1094 (2018), doi:10.1080/01621459.2017.1307116, sec. 5.2);
+- second opinion: a Gaussian process (ConstantKernel * anisotropic Matern 5/2 + WhiteKernel)
+  for the same residual on a Sobol prefix of the training set (space-filling), its std rescaled
+  by its own conformal quantile;
+- the other output columns (neutral extents, surface bending): residual regressors.
+"""
+
+from __future__ import annotations
+
+import time
+import warnings
+
+import numpy as np
+
+from surrogate import INPUT_COLUMNS, REGIMES, normalize_designs
+from surrogate._features import FEATURE_NAMES, FEATURES_VERSION, features
+
+from ._dataset import load_dataset
+from ._export import export_gp, export_hgb
+
+LEVEL = 0.95  #: interval coverage the conformal quantiles target
+# Sizes: a tree costs ~16 ns per row in batch, so ~450 trees in all keep 1e5 rows/s
+# (benchmarks/bench_surrogate.py); accuracy measured by `radialpn validate`.
+# Depth <= 10 bounds the level-synchronous numpy walk of a single query.
+REGIME_MODEL = dict(max_iter=45, learning_rate=0.3, max_leaf_nodes=63, max_depth=10)  # x4 classes
+VBI_MODEL = dict(max_iter=100, learning_rate=0.1, max_leaf_nodes=127, max_depth=10)
+DIFFICULTY_MODEL = dict(max_iter=30, learning_rate=0.2, max_leaf_nodes=31, max_depth=10)
+AUX_MODEL = dict(max_iter=20, learning_rate=0.35, max_leaf_nodes=63, max_depth=10)
+GP_FIT_POINTS = 1024  #: hyperparameters are fitted on this Sobol prefix
+GP_MEAN_POINTS = 2048  #: the mean uses this prefix
+GP_STD_POINTS = 512  #: the std uses this prefix (conservative, ~2 MB float64 inverse)
+DIFFICULTY_FLOOR_V = 2e-4  #: |residual| floor before the log [V]
+AUX_TARGETS = ("core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V")
+
+
+def _frame_features(df, statistics):
+    table = normalize_designs({c: df[c].to_numpy() for c in INPUT_COLUMNS if c in df})
+    X, da = features(table, statistics)
+    return X, da
+
+
+def conformal_quantile(scores: np.ndarray, level: float = LEVEL) -> float:
+    """The ceil((n+1) level)-th smallest score (split conformal, Lei et al. 2018)."""
+    s = np.sort(scores[np.isfinite(scores)])
+    k = int(np.ceil((s.size + 1) * level))
+    return float(s[min(k, s.size) - 1])
+
+
+def fit_temperature(raw: np.ndarray, y: np.ndarray) -> float:
+    """Temperature T minimising the negative log-likelihood of softmax(raw / T) (golden section
+    on log T in [-3, 3])."""
+    def nll(logt):
+        z = raw / np.exp(logt)
+        z = z - z.max(1, keepdims=True)
+        return float(-(z[np.arange(y.size), y] - np.log(np.exp(z).sum(1))).mean())
+
+    lo, hi = -3.0, 3.0
+    g = (np.sqrt(5.0) - 1) / 2
+    for _ in range(60):
+        a, b = hi - g * (hi - lo), lo + g * (hi - lo)
+        lo, hi = (lo, b) if nll(a) < nll(b) else (a, hi)
+    return float(np.exp(0.5 * (lo + hi)))
+
+
+def fit_bundle(spec, data_dir, log=print, seed: int = 0, gp_points=(GP_FIT_POINTS, GP_MEAN_POINTS, GP_STD_POINTS)) -> tuple:
+    """Fit every model of a bundle. Returns (meta dict, arrays dict) ready for ``write_bundle``.
+    ``gp_points``: Sobol-prefix sizes for the GP's hyperparameters, mean and std."""
+    gp_fit, gp_mean, gp_std = gp_points
+    from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
+    from sklearn.gaussian_process import GaussianProcessRegressor
+    from sklearn.exceptions import ConvergenceWarning
+    from sklearn.gaussian_process.kernels import ConstantKernel, Matern, WhiteKernel
+
+    t0 = time.perf_counter()
+    train = load_dataset(data_dir, ("train",))
+    cal = load_dataset(data_dir, ("calibration",))
+    train, cal = train[train["status"] == "ok"].reset_index(drop=True), cal[cal["status"] == "ok"].reset_index(drop=True)
+    X, da = _frame_features(train, spec.statistics)
+    Xc, dac = _frame_features(cal, spec.statistics)
+    code = {r: i for i, r in enumerate(REGIMES)}
+    y, yc = train["regime"].map(code).to_numpy(), cal["regime"].map(code).to_numpy()
+    res, resc = train["vbi_V"].to_numpy() - da["vbi_V"], cal["vbi_V"].to_numpy() - dac["vbi_V"]
+    log(f"features: {X.shape[0]:,} training rows, {Xc.shape[0]:,} calibration rows ({time.perf_counter() - t0:.1f} s)")
+    arrays, meta = {}, {}
+
+    clf = HistGradientBoostingClassifier(**REGIME_MODEL, early_stopping=False, random_state=seed).fit(X, y)
+    raw_c = clf._raw_predict(Xc)
+    raw_c = raw_c.T if raw_c.shape[0] != Xc.shape[0] else raw_c
+    temperature = fit_temperature(raw_c, yc)
+    arrays.update({f"regime/{k}": v for k, v in export_hgb(clf).items()})
+    log(f"regime classifier: {len(clf._predictors)} iterations, temperature {temperature:.3f}")
+
+    reg = HistGradientBoostingRegressor(**VBI_MODEL, early_stopping=False, random_state=seed).fit(X, res)
+    arrays.update({f"vbi/{k}": v for k, v in export_hgb(reg).items()})
+    folds = np.arange(X.shape[0]) % 2
+    oof = np.empty_like(res)
+    for f in (0, 1):
+        m = HistGradientBoostingRegressor(**VBI_MODEL, early_stopping=False, random_state=seed)
+        m.fit(X[folds != f], res[folds != f])
+        oof[folds == f] = m.predict(X[folds == f])
+    diff = HistGradientBoostingRegressor(**DIFFICULTY_MODEL, early_stopping=False, random_state=seed)
+    diff.fit(X, np.log(np.abs(res - oof) + DIFFICULTY_FLOOR_V))
+    arrays.update({f"difficulty/{k}": v for k, v in export_hgb(diff).items()})
+    scale_c = np.exp(diff.predict(Xc))
+    q_gbm = conformal_quantile(np.abs(resc - reg.predict(Xc)) / scale_c)
+    log(f"V_bi regressor and difficulty model; conformal q = {q_gbm:.3f} ({time.perf_counter() - t0:.1f} s)")
+
+    for target in AUX_TARGETS:
+        m = HistGradientBoostingRegressor(**AUX_MODEL, early_stopping=False, random_state=seed)
+        m.fit(X, train[target].to_numpy() - da[target])
+        arrays.update({f"aux_{target}/{k}": v for k, v in export_hgb(m).items()})
+
+    # Gaussian process on the Sobol prefix (round 0 rows come first, in sequence order)
+    base = np.flatnonzero(train["round"].to_numpy() == 0)
+    ok = np.isfinite(X).all(1)
+    base = base[ok[base]]
+    mu, sd = X[base[:gp_mean]].mean(0), X[base[:gp_mean]].std(0) + 1e-12
+    Z = (X - mu) / sd
+    kernel = ConstantKernel(1.0, (1e-3, 1e3)) * Matern(np.ones(X.shape[1]), (1e-2, 1e3), nu=2.5) + \
+        WhiteKernel(1e-2, (1e-8, 1.0))
+    gpr = GaussianProcessRegressor(kernel, normalize_y=True, random_state=seed, n_restarts_optimizer=0)
+    with warnings.catch_warnings():  # length scales at a bound just mean "irrelevant feature"
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        gpr.fit(Z[base[:gp_fit]], res[base[:gp_fit]])
+    gp = export_gp(gpr, Z[base[:gp_mean]], res[base[:gp_mean]], Z[base[:gp_std]])
+    arrays.update({f"gp/{k}": v for k, v in gp.items()})
+    arrays["gp/x_mean"], arrays["gp/x_scale"] = mu, sd
+    from surrogate._gp import GaussianProcess
+
+    gm, gs = GaussianProcess(gp).predict((Xc - mu) / sd)
+    q_gp = conformal_quantile(np.abs(resc - gm) / gs)
+    log(f"Gaussian process: {gpr.kernel_}; conformal q = {q_gp:.3f} ({time.perf_counter() - t0:.1f} s)")
+
+    ref = np.flatnonzero(np.isfinite(Xc).all(1))[:64]  # reference rows to verify fast paths at load
+    arrays["ref/X"] = Xc[ref]
+    for name in ("regime", "vbi", "difficulty"):
+        est = {"regime": clf, "vbi": reg, "difficulty": diff}[name]
+        r = est._raw_predict(Xc[ref])
+        arrays[f"ref/{name}_raw"] = r.T if r.shape[0] != ref.size else r
+    meta.update(
+        features_version=FEATURES_VERSION, feature_names=list(FEATURE_NAMES), temperature=temperature,
+        conformal={"level": LEVEL, "q_gbm": q_gbm, "q_gp": q_gp, "calibration_rows": int(Xc.shape[0])},
+        models={"regime": REGIME_MODEL, "vbi": VBI_MODEL, "difficulty": DIFFICULTY_MODEL, "aux": AUX_MODEL,
+                "gp": {"kernel": str(gpr.kernel_), "fit_points": min(gp_fit, base.size),
+                       "mean_points": min(gp_mean, base.size), "std_points": min(gp_std, base.size)}},
+        data={"training_rows": int(X.shape[0]), "calibration_rows": int(Xc.shape[0])},
+        fit_seconds=time.perf_counter() - t0,
+    )
+    return meta, arrays
