@@ -70,6 +70,58 @@ def build_parser() -> argparse.ArgumentParser:
     ds.add_argument("--jobs", type=int, default=-1, help="worker processes (default: all cores)")
     ds.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://10.0.0.5:8786")
 
+    mp = sub.add_parser("map", help="regimes and V_bi over two design variables, the rest fixed")
+    add_design_flags(mp)
+    engine_flags(mp)
+    mp.add_argument("--x", required=True, metavar="NAME:LOW:HIGH", help="horizontal axis, e.g. shell-thickness:2nm:60nm")
+    mp.add_argument("--y", required=True, metavar="NAME:LOW:HIGH", help="vertical axis, e.g. core-radius:10nm:150nm")
+    mp.add_argument("--cells", default="32x16", metavar="WxH", help="grid size (default 32x16)")
+    mp.add_argument("--csv", metavar="FILE", help="also write every grid point as CSV")
+    mp.add_argument("--png", metavar="FILE", help="also write a PNG (plot extra)")
+    mp.add_argument("--json", action="store_true", help="print the grid as JSON instead")
+
+    def target_flags(sp):
+        sp.add_argument("--fraction", type=float, default=0.9, help="target V_bi >= FRACTION * V_bi0 (default 0.9)")
+        sp.add_argument("--vbi-min", metavar="V", help="target V_bi >= V instead, e.g. 0.8V")
+
+    sz = sub.add_parser("size", help="smallest core and thinnest shell that keep V_bi above a target")
+    add_design_flags(sz)
+    engine_flags(sz)
+    target_flags(sz)
+    sz.add_argument("--sweep", metavar="NAME:LOW:HIGH", help="critical dimensions against a variable, e.g. dit:1e11:1e13")
+    sz.add_argument("--points", type=int, default=9, help="points of the sweep (default 9)")
+    sz.add_argument("--png", metavar="FILE", help="sweep plot as PNG (plot extra)")
+    sz.add_argument("--no-confirm", action="store_true", help="skip the reference-solver checks")
+
+    se = sub.add_parser("search", help="best design among many random candidates under a V_bi target")
+    add_design_flags(se)
+    engine_flags(se)
+    target_flags(se)
+    se.add_argument("--vary", action="append", default=[], metavar="NAME:LOW:HIGH", help="a free variable (repeatable)")
+    se.add_argument("--minimize", choices=("total-radius", "core-radius", "shell-thickness"), default="total-radius")
+    se.add_argument("--regime", action="append", choices=("both-neutral", "core-depleted", "shell-depleted",
+                                                          "all-depleted"), help="also require this regime (repeatable)")
+    se.add_argument("--candidates", type=int, default=1_000_000, help="random candidates (default 1e6)")
+    se.add_argument("--top", type=int, default=5, help="winners to show and re-check with the solver")
+    se.add_argument("--seed", type=int, default=0)
+
+    sp = sub.add_parser("spread", help="growth tolerance: regimes, V_bi percentiles and yield under run-to-run spread")
+    add_design_flags(sp)
+    engine_flags(sp)
+    target_flags(sp)
+    sp.add_argument("--spread", action="append", default=[], metavar="NAME=SIZE[%][,uniform]",
+                    help="a spread, e.g. shell-thickness=2nm (σ) or dit=50%%,uniform (repeatable)")
+    sp.add_argument("--samples", type=int, default=100_000, help="Monte Carlo samples (default 100000)")
+    sp.add_argument("--regime", action="append", choices=("both-neutral", "core-depleted", "shell-depleted",
+                                                          "all-depleted"), help="yield also requires this regime")
+    sp.add_argument("--seed", type=int, default=0)
+    sp.add_argument("--json", action="store_true", help="print the summary as JSON")
+
+    co = sub.add_parser("console", help="interactive what-if session (or --jsonl for programs)")
+    add_design_flags(co)
+    engine_flags(co)
+    co.add_argument("--jsonl", action="store_true", help="read JSON commands per line, answer JSON per line")
+
     sub.add_parser("models", help="the installed surrogate bundles: domain and validated accuracy")
     val = sub.add_parser("validate", help="check a surrogate bundle against fresh reference-solver runs")
     val.add_argument("bundle", metavar="BUNDLE", help="bundle directory or name (see `radialpn models`)")
@@ -106,12 +158,15 @@ def main(argv=None, console=None, out=None) -> int:
         if console is None:
             to_stdout_machine = args.command == "batch" and args.output in (None, "-")
             console = err_console if to_stdout_machine else Console(highlight=False)
-        from . import _commands, _dataset_cmd, _demo, _models_cmd, _profile_cmd
+        from . import (_commands, _console, _dataset_cmd, _demo, _map_cmd, _models_cmd, _profile_cmd, _size_cmd,
+                       _spread_cmd)
 
         handler = {"ask": _commands.cmd_ask, "batch": _commands.cmd_batch, "materials": _commands.cmd_materials,
                    "profile": _profile_cmd.cmd_profile, "dataset": _dataset_cmd.cmd_dataset,
                    "models": _models_cmd.cmd_models, "validate": _models_cmd.cmd_validate,
-                   "train": _models_cmd.cmd_train, "demo": _demo.cmd_demo}[args.command]
+                   "train": _models_cmd.cmd_train, "map": _map_cmd.cmd_map, "size": _size_cmd.cmd_size,
+                   "search": _size_cmd.cmd_search, "spread": _spread_cmd.cmd_spread, "console": _console.cmd_console,
+                   "demo": _demo.cmd_demo}[args.command]
         return handler(args, console, out)
     except _errors.UsageError as exc:
         err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, soft_wrap=True)

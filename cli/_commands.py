@@ -157,7 +157,8 @@ def _run_with_progress(engine, table, statistics, console, chunk=4000, **options
 
 
 def _write_csv(fh, header, rows, result, out_cols):
-    w = csv.writer(fh, lineterminator="\n")
+    # RFC 4180 line ends: csv then quotes any field holding \r or \n (user text passes through)
+    w = csv.writer(fh, lineterminator="\r\n")
     w.writerow(header)
     for i, r in enumerate(rows):
         extra = {c: _fmt_cell(result[c][i]) for c in out_cols}

@@ -37,3 +37,8 @@ DEFAULT_ENGINE = "surrogate"
 
 def run(engine: str, designs, statistics: str, **options) -> dict:
     return ENGINES[engine](designs, statistics, **options)
+
+
+def predictor(engine: str, statistics: str = "fermi-dirac", **options):
+    """A callable designs -> output columns for the search helpers of surrogate._search."""
+    return lambda designs: run(engine, designs, statistics, **options)

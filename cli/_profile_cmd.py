@@ -10,7 +10,7 @@ from rich.text import Text
 
 import surrogate
 
-from . import _errors
+from . import _errors, _png
 from ._designargs import design_from_args, flag_hint
 from ._plot import BrailleCanvas
 from ._render import CAUTION, design_line, regime_text
@@ -88,20 +88,14 @@ def cmd_profile(args, console, out) -> int:
         summary.append(f"   depletion approx.: no answer ({other})")
     console.print(summary)
     if args.png:
-        _png(args.png, main, other if isinstance(other, dict) else None, args.engine)
+        _write_png(args.png, main, other if isinstance(other, dict) else None, args.engine)
         console.print(f"[dim]wrote {args.png}[/]")
     console.print(f"[dim]{CAUTION}[/]")
     return _errors.OK
 
 
-def _png(path, main, other, engine):
-    try:
-        import matplotlib
-
-        matplotlib.use("Agg")
-        import matplotlib.pyplot as plt
-    except ImportError:
-        raise _errors.UsageError("--png needs matplotlib: pip install 'radialpn[plot]'") from None
+def _write_png(path, main, other, engine):
+    plt = _png.pyplot()
     fig, ax = plt.subplots(figsize=(7, 4.2), dpi=130)
     ax.plot(main["r_nm"], main["ec_eV"], color="#2f7fc1", lw=2, label=f"E_c ({engine})")
     ax.plot(main["r_nm"], main["ev_eV"], color="#c8602f", lw=2, label=f"E_v ({engine})")
@@ -117,10 +111,4 @@ def _png(path, main, other, engine):
     ax.set_ylabel("energy [eV] (E_F = 0)")
     ax.set_title(f"{main['regime']}, V_bi = {main['vbi_V']:.3f} V (design estimate)", fontsize=10)
     ax.legend(fontsize=7, loc="best")
-    fig.tight_layout()
-    try:
-        fig.savefig(path)
-    except OSError as exc:
-        raise _errors.UsageError(f"--png {path}: cannot write ({exc.strerror})") from None
-    finally:
-        plt.close(fig)
+    _png.save(fig, path)

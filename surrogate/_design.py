@@ -100,17 +100,18 @@ class DesignTable:
                            values={k: v[rows] for k, v in self.values.items()}, status=self.status[rows])
 
 
-def _as_columns(designs) -> dict:
-    """Accept a mapping of column -> array/scalar, a list of row dicts, or a DataFrame."""
+def _as_columns(designs):
+    """(columns, row count or None): accept a mapping of column -> array/scalar, a list of row
+    dicts, or a DataFrame. The row count is known for rows and frames even without columns."""
     if hasattr(designs, "to_dict") and hasattr(designs, "columns"):  # pandas DataFrame
-        return {str(c): designs[c].to_numpy() for c in designs.columns}
+        return {str(c): designs[c].to_numpy() for c in designs.columns}, len(designs)
     if isinstance(designs, dict):
-        return dict(designs)
+        return dict(designs), None
     rows = list(designs)
     if rows and not all(isinstance(r, dict) for r in rows):
         raise DesignError("designs", "expected a mapping of column -> values, a list of row dicts or a DataFrame")
     keys = {k for r in rows for k in r}
-    return {k: [r.get(k) for r in rows] for k in keys}
+    return {k: [r.get(k) for r in rows] for k in keys}, len(rows)
 
 
 def _blank(v) -> bool:
@@ -173,9 +174,9 @@ def _each_category(cols, name, n, st, missing):
 def normalize_designs(designs) -> DesignTable:
     """Validate designs row by row (see module docstring). Never raises for a bad row; raises
     ``DesignError`` only when the whole input is unusable (ragged columns, wrong container)."""
-    cols = _as_columns(designs)
+    cols, rows = _as_columns(designs)
     lengths = {k: np.size(v) for k, v in cols.items() if np.ndim(v) > 0}
-    n = max(lengths.values(), default=1)
+    n = rows if rows is not None else max(lengths.values(), default=1)
     if any(m != n for m in lengths.values()):
         raise DesignError("designs", f"columns have different lengths {sorted(set(lengths.values()))}")
     st = _Status(n)

@@ -109,7 +109,7 @@ def test_materials_json_keys_and_temperature():
 def test_demo_runs():
     code, text, _ = run(["demo"])
     flat = " ".join(text.split())
-    assert code == 0 and "Kestrel Bay Photonics" in flat and "Thinnest shell" in flat
+    assert code == 0 and "Kestrel Bay Photonics" in flat and "critical dimensions" in flat
     assert "confirm the design with measurements" in flat
 
 
