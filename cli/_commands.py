@@ -109,8 +109,8 @@ def cmd_batch(args, console, out) -> int:
                                  f"{', '.join(INPUT_COLUMNS[:4])})")
     designs = {c: [r.get(c) for r in rows] for c in INPUT_COLUMNS if c in fields}
     table = normalize_designs(designs) if rows else None
-    result = _run_with_progress(args.engine, table, args.statistics, console,
-                                second_opinion=args.second_opinion) if rows else {}
+    result = _engines.run_with_progress(args.engine, table, args.statistics, console,
+                                        second_opinion=args.second_opinion) if rows else {}
     out_cols = [c for c in surrogate.OUTPUT_COLUMNS + EXTRA_OUTPUTS if c in result or (not rows and c in surrogate.OUTPUT_COLUMNS)]
     header = fields + [c for c in out_cols if c not in fields]
     target = args.output
@@ -134,26 +134,6 @@ def cmd_batch(args, console, out) -> int:
         console.print(f"[dim]{len(rows)} rows · {good} answered ({summary}) · {len(rows) - good} with a reason "
                       f"in status · engine {args.engine}[/]")
     return _errors.OK
-
-
-def _run_with_progress(engine, table, statistics, console, chunk=4000, **options):
-    """Run an engine over a table; slow engines go chunk by chunk under a progress bar."""
-    if engine == "depletion" or table.n <= chunk or (engine == "surrogate" and not options.get("second_opinion")):
-        return _engines.run(engine, table, statistics, **options)
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
-
-    parts = []
-    with Progress(TextColumn("[#5b8def]{task.description}"), BarColumn(), MofNCompleteColumn(),
-                  TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), console=console, transient=True) as bar:
-        task = bar.add_task(f"{engine} engine", total=table.n, rate="")
-        import time
-
-        t0 = time.perf_counter()
-        for start in range(0, table.n, chunk):
-            parts.append(_engines.run(engine, table.take(slice(start, start + chunk)), statistics, **options))
-            done = min(start + chunk, table.n)
-            bar.update(task, completed=done, rate=f"{done / (time.perf_counter() - t0):,.0f} rows/s")
-    return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
 
 
 def _write_csv(fh, header, rows, result, out_cols):

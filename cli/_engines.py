@@ -39,6 +39,32 @@ def run(engine: str, designs, statistics: str, **options) -> dict:
     return ENGINES[engine](designs, statistics, **options)
 
 
-def predictor(engine: str, statistics: str = "fermi-dirac", **options):
-    """A callable designs -> output columns for the search helpers of surrogate._search."""
-    return lambda designs: run(engine, designs, statistics, **options)
+def run_with_progress(engine, designs, statistics, console, chunk=4000, **options):
+    """Run an engine; where it may take more than a second (the solver, or the GP second
+    opinion, on many rows) go chunk by chunk under a progress bar with rate and time left."""
+    import time
+
+    import numpy as np
+
+    table = designs if isinstance(designs, surrogate.DesignTable) else surrogate.normalize_designs(designs)
+    slow = engine == "solver" or (engine == "surrogate" and options.get("second_opinion"))
+    if not slow or table.n <= chunk or console is None:
+        return run(engine, table, statistics, **options)
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    parts = []
+    with Progress(TextColumn("[#5b8def]{task.description}"), BarColumn(), MofNCompleteColumn(),
+                  TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), console=console, transient=True) as bar:
+        task = bar.add_task(f"{engine} engine", total=table.n, rate="")
+        t0 = time.perf_counter()
+        for start in range(0, table.n, chunk):
+            parts.append(run(engine, table.take(slice(start, start + chunk)), statistics, **options))
+            done = min(start + chunk, table.n)
+            bar.update(task, completed=done, rate=f"{done / (time.perf_counter() - t0):,.0f} rows/s")
+    return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
+
+
+def predictor(engine: str, statistics: str = "fermi-dirac", console=None, **options):
+    """A callable designs -> output columns for the search helpers of surrogate._search
+    (with a progress bar on slow engines when a console is given)."""
+    return lambda designs: run_with_progress(engine, designs, statistics, console, **options)

@@ -103,7 +103,7 @@ def cmd_map(args, console, out) -> int:
     base = _base(args, xcol, ycol, (xlo, ylo))
     xs, ys = axis(xcol, xlo, xhi, nx), axis(ycol, ylo, yhi, ny)
     designs = grid(base, xcol, xs, ycol, ys)
-    res = _engines.run(args.engine, designs, args.statistics)
+    res = _engines.run_with_progress(args.engine, designs, args.statistics, console)
     regime = np.asarray(res["regime"], dtype=object).reshape(ny, nx)
     vbi = np.asarray(res["vbi_V"], dtype=float).reshape(ny, nx)
     if args.csv:

@@ -38,7 +38,7 @@ def cmd_spread(args, console, out) -> int:
     if not 1000 <= args.samples <= 20_000_000:
         raise _errors.UsageError(f"--samples: allowed range [1000, 20000000] (got {args.samples})")
     nominal = _check_base(design_from_args(args), {})
-    predict = _engines.predictor(args.engine, args.statistics)
+    predict = _engines.predictor(args.engine, args.statistics, console)
     t0 = time.perf_counter()
     samples = spread_samples(nominal, spreads, args.samples, args.seed)
     res = predict(samples)
