@@ -8,7 +8,6 @@ import json
 import math
 import time
 
-import numpy as np
 from rich.text import Text
 
 import surrogate

@@ -15,7 +15,6 @@ def cmd_dataset(args, console, out) -> int:
 
     spec = load_spec(args.spec)
     cluster = contextlib.nullcontext()
-    backend = None
     if args.scheduler:
         try:
             import joblib

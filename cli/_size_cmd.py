@@ -14,7 +14,7 @@ import surrogate
 from surrogate._search import LOG_COLUMNS, axis, candidates, critical, meets, objective
 
 from . import _engines, _errors, _png
-from ._axes import UNITS, axis_spec, column, fmt_value, value
+from ._axes import UNITS, axis_spec, fmt_value, value
 from ._designargs import design_from_args, flag_hint
 from ._plot import BrailleCanvas
 from ._render import CAUTION, regime_text

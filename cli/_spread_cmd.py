@@ -76,7 +76,7 @@ def cmd_spread(args, console, out) -> int:
         t.add_row(regime_text(r), f"{p:.1%}", Text("█" * int(round(30 * p)), style=REGIME_STYLE[r][0]))
     console.print(t)
     console.print(Text.assemble("V_bi  ", histogram(vb)))
-    console.print(f"      5 / 25 / 50 / 75 / 95 %: " + " / ".join(f"{x:.3f}" for x in pct) + " V")
+    console.print("      5 / 25 / 50 / 75 / 95 %: " + " / ".join(f"{x:.3f}" for x in pct) + " V")
     y = float(success[ok].mean()) if ok.any() else float("nan")
     console.print(Text.assemble("yield (", goal, "): ", (f"{y:.1%}", "bold")))
     ranking = sorted(effects.items(), key=lambda kv: (-kv[1], -abs(shift[kv[0]])))

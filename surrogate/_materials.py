@@ -14,10 +14,8 @@ Users add materials from a TOML or JSON file (see ``load_material_file``), or th
 
 from __future__ import annotations
 
-import json
 import os
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
@@ -173,22 +171,9 @@ def material_from_dict(name: str, values: dict) -> Material:
 def load_material_file(path) -> list[Material]:
     """Read materials from a TOML or JSON file: one table per material, keyed by its name, with
     the fields of ``Material`` (see ``examples/AlGaAs.toml``). Returns them unregistered."""
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise MaterialError(f"material file {path}: cannot read ({exc.strerror})") from None
-    try:
-        if path.suffix.lower() == ".json":
-            data = json.loads(text)
-        else:
-            try:
-                import tomllib
-            except ModuleNotFoundError:  # Python 3.10
-                import tomli as tomllib
-            data = tomllib.loads(text)
-    except ValueError as exc:
-        raise MaterialError(f"material file {path}: not valid {path.suffix[1:] or 'TOML'}: {exc}") from None
+    from ._textfile import read_table_file
+
+    data = read_table_file(path, MaterialError, "material file")
     if not isinstance(data, dict) or not data:
         raise MaterialError(f"material file {path}: expected one table per material")
     data = data.get("materials", data)

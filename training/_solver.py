@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from surrogate._constants import EPS0, NM, Q
+from surrogate._constants import NM, Q
 from surrogate._depletion import _prepare, _row_status, _outputs, material_arrays, solve_pcore
 from surrogate._design import REGIMES, DesignTable, normalize_designs
 from surrogate._profiles import fermi_minus_ev

@@ -30,12 +30,12 @@ from __future__ import annotations
 import hashlib
 import json
 from dataclasses import asdict, dataclass, field
-from pathlib import Path
 
 import numpy as np
 
 from surrogate import INPUT_COLUMNS, NUMERIC_COLUMNS, RadialpnError, get_material
 from surrogate._statistics import STATISTICS
+from surrogate._textfile import read_table_file
 
 
 class SpecError(RadialpnError, ValueError):
@@ -165,17 +165,4 @@ def spec_from_dict(data: dict) -> DomainSpec:
 
 def load_spec(path) -> DomainSpec:
     """Read a domain spec TOML file (see module docstring)."""
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise SpecError(f"{path}: cannot read ({exc.strerror})") from None
-    try:
-        import tomllib
-    except ModuleNotFoundError:  # Python 3.10
-        import tomli as tomllib
-    try:
-        data = tomllib.loads(text)
-    except ValueError as exc:
-        raise SpecError(f"{path}: not valid TOML ({exc})") from None
-    return spec_from_dict(data)
+    return spec_from_dict(read_table_file(path, SpecError, "spec"))
