@@ -95,7 +95,7 @@ class SurrogateModel:
         Returns a mapping of output columns to numpy arrays, one entry per input row.
         ``second_opinion``: also evaluate the Gaussian process (``vbi_gp_V``, ``vbi_gp_low_V``,
         ``vbi_gp_high_V``) and flag designs where it disagrees with the trees; slower in large
-        batches (about 1e5 rows/s).
+        batches (about 2e4 rows/s against 1e5 without; benchmarks/bench_surrogate.py).
         """
         table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
         n = table.n

@@ -189,13 +189,13 @@ def test_batch_surrogate_second_opinion(tmp_path):
     src = tmp_path / "in.csv"
     src.write_text("name,material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
                    "a,GaAs,p,60,40,1e18,1e18,1e12\nb,GaAs,n,45,30,5e17,2e18,5e12\nc,GaAs,p,900,40,1e18,1e18,1e12\n"
-                   "d,InP,p,60,40,1e18,1e18,1e12\n")
+                   "d,Si,p,60,40,1e18,1e18,1e12\n")
     code, _, out = run(["batch", str(src), "--second-opinion"])
     got = list(csv.DictReader(io.StringIO(out)))
     assert code == 0 and [g["name"] for g in got] == ["a", "b", "c", "d"]
     assert got[0]["in_domain"] == "true" and float(got[0]["vbi_gp_V"]) > 0 and got[0]["status"] == "ok"
     assert got[2]["in_domain"] == "false" and got[2]["vbi_V"] == ""
-    assert "no surrogate bundle for InP" in got[3]["status"]
+    assert "no surrogate bundle for Si" in got[3]["status"]
 
 
 def test_models_lists_bundles():

@@ -80,7 +80,7 @@ def test_conformal_quantile_and_temperature():
 @pytest.fixture(scope="module")
 def shipped():
     found = find_bundles()
-    assert "gaas-pcore" in found and "gaas-ncore" in found
+    assert {"gaas-pcore", "gaas-ncore", "inp-pcore", "inp-ncore"} <= set(found)
     return found
 
 
@@ -133,10 +133,10 @@ def test_predict_api_forms_and_columns(shipped):
 
 
 def test_outside_domain_flagged_not_extrapolated(shipped):
-    out = surrogate.predict([dict(DESIGN, core_radius_nm=800.0), dict(DESIGN, material="InP"), DESIGN])
+    out = surrogate.predict([dict(DESIGN, core_radius_nm=800.0), dict(DESIGN, material="Si"), DESIGN])
     assert not out["in_domain"][0] and "core_radius_nm 800 not in [10, 300]" in out["status"][0]
     assert np.isnan(out["vbi_V"][0]) and out["regime"][0] == ""
-    assert "no surrogate bundle for InP" in out["status"][1] and out["status"][2] == "ok"
+    assert "no surrogate bundle for Si" in out["status"][1] and out["status"][2] == "ok"
 
 
 def test_shipped_bundles_agree_with_fresh_solver_runs(shipped):
@@ -145,7 +145,7 @@ def test_shipped_bundles_agree_with_fresh_solver_runs(shipped):
     # ~3 sigma; mean error <= 3 mV; coverage >= 92 %: 95 % minus ~3.5 sigma).
     from training._validate import validate
 
-    for name in ("gaas-pcore", "gaas-ncore"):
+    for name in ("gaas-pcore", "gaas-ncore", "inp-pcore", "inp-ncore"):
         v = validate(load_bundle(shipped[name]), n=800, seed=4242, n_jobs=1)
         assert v["regime_accuracy"] >= 0.985, name
         assert v["vbi_mean_mV"] <= 3.0, name
@@ -153,7 +153,7 @@ def test_shipped_bundles_agree_with_fresh_solver_runs(shipped):
 
 
 def test_card_states_targets_and_caution(shipped):
-    for name in ("gaas-pcore", "gaas-ncore"):
+    for name in ("gaas-pcore", "gaas-ncore", "inp-pcore", "inp-ncore"):
         card = (shipped[name] / "CARD.md").read_text()
         assert "design estimates, not measurements" in card and "## Validation" in card and "## Limits" in card
         meta = json.loads((shipped[name] / "bundle.json").read_text())
