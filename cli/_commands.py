@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import json
 import math
@@ -85,17 +86,11 @@ def cmd_ask(args, console, out) -> int:
     return _errors.OK
 
 
-def _fmt_cell(x) -> str:
-    if isinstance(x, (bool, np.bool_)):
-        return "true" if x else "false"
-    if isinstance(x, (float, np.floating)):
-        return "" if math.isnan(x) else repr(float(x))
-    return "" if x is None else str(x)
-
-
 def cmd_batch(args, console, out) -> int:
+    big = os.path.exists(args.input) and os.path.getsize(args.input) > 20_000_000  # ~ a second to parse
     try:
-        with open(args.input, newline="", encoding="utf-8-sig") as fh:
+        with open(args.input, newline="", encoding="utf-8-sig") as fh, \
+                (console.status(f"reading {args.input}") if big else contextlib.nullcontext()):
             reader = csv.DictReader(fh)
             rows = list(reader)
             fields = list(reader.fieldnames or [])
@@ -116,13 +111,15 @@ def cmd_batch(args, console, out) -> int:
     out_cols = [c for c in surrogate.OUTPUT_COLUMNS + EXTRA_OUTPUTS if c in result or (not rows and c in surrogate.OUTPUT_COLUMNS)]
     header = fields + [c for c in out_cols if c not in fields]
     target = args.output
+    writing = console.status(f"writing {len(rows):,} rows") if len(rows) > 200_000 else contextlib.nullcontext()
     if target in (None, "-"):
-        _write_csv(out, header, rows, result, out_cols)
+        with writing:
+            _write_csv(out, header, rows, result, out_cols)
     else:
         d = os.path.dirname(os.path.abspath(target))
         fd, tmp = tempfile.mkstemp(prefix=".radialpn-", suffix=".csv", dir=d)
         try:
-            with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
+            with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh, writing:
                 _write_csv(fh, header, rows, result, out_cols)
             os.replace(tmp, target)  # never leave a half-written output
         except BaseException:
@@ -138,13 +135,28 @@ def cmd_batch(args, console, out) -> int:
     return _errors.OK
 
 
+def _column_text(values) -> list:
+    """A result column as CSV text, formatted in one vectorised pass: floats in their shortest
+    round-trip form (as repr), NaN as empty, booleans as true/false."""
+    a = np.asarray(values)
+    if a.dtype.kind == "b":
+        return np.where(a, "true", "false").tolist()
+    if a.dtype.kind == "f":
+        text = a.astype(str)
+        text[np.isnan(a)] = ""
+        return text.tolist()
+    if a.dtype.kind in "iu":
+        return a.astype(str).tolist()
+    return ["" if x is None else str(x) for x in a]
+
+
 def _write_csv(fh, header, rows, result, out_cols):
     # RFC 4180 line ends: csv then quotes any field holding \r or \n (user text passes through)
     w = csv.writer(fh, lineterminator="\r\n")
     w.writerow(header)
+    outs = {c: _column_text(result[c]) for c in out_cols}
     for i, r in enumerate(rows):
-        extra = {c: _fmt_cell(result[c][i]) for c in out_cols}
-        w.writerow([extra[c] if c in extra else r.get(c, "") for c in header])
+        w.writerow([outs[c][i] if c in outs else r.get(c, "") for c in header])
 
 
 def cmd_materials(args, console, out) -> int:

@@ -39,16 +39,21 @@ def run(engine: str, designs, statistics: str, **options) -> dict:
     return ENGINES[engine](designs, statistics, **options)
 
 
-def run_with_progress(engine, designs, statistics, console, chunk=4000, **options):
-    """Run an engine; where it may take more than a second (the solver, or the GP second
-    opinion, on many rows) go chunk by chunk under a progress bar with rate and time left."""
+#: rows per second, roughly (benchmarks/): above one second's worth a run shows progress
+RATE = {"solver": 3000, "surrogate": 100_000, "surrogate+gp": 15_000, "depletion": 1_000_000}
+
+
+def run_with_progress(engine, designs, statistics, console, **options):
+    """Run an engine; where it may take more than about a second, go chunk by chunk under a
+    progress bar with rate and time left."""
     import time
 
     import numpy as np
 
     table = designs if isinstance(designs, surrogate.DesignTable) else surrogate.normalize_designs(designs)
-    slow = engine == "solver" or (engine == "surrogate" and options.get("second_opinion"))
-    if not slow or table.n <= chunk or console is None:
+    rate = RATE["surrogate+gp" if engine == "surrogate" and options.get("second_opinion") else engine]
+    chunk = max(1000, rate // 4)
+    if table.n <= rate or console is None:
         return run(engine, table, statistics, **options)
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 

@@ -210,6 +210,11 @@ def normalize_designs(designs) -> DesignTable:
             values[name] = np.full(n, np.nan if default is None else default)
             continue
         arr = np.asarray(raw)
+        if arr.dtype.kind in "UO" and arr.ndim:  # text: plain numbers convert in one vectorised step
+            try:
+                arr = arr.astype(str).astype(float)
+            except ValueError:  # units, blanks or junk somewhere: parse value by value below
+                pass
         if arr.dtype.kind in "fiub":
             x = np.broadcast_to(arr.astype(float), (n,))
             blank = np.isnan(x)

@@ -175,3 +175,26 @@ def test_ask_flags_never_traceback(flag, junk):
     assert "Traceback" not in text and code in (0, 2, 3)
     if code == 2:
         assert text.count("\n") == 1 and text.startswith("radialpn: error:")
+
+
+def test_spread_and_size_agree_with_ask_at_the_same_points():
+    # Issue 6: with vanishing spreads the Monte Carlo sits on the nominal design, so it must
+    # give ask's regime with probability 1 and V_bi percentiles equal to ask's V_bi (1e-4 V:
+    # 1e-6 relative spreads move V_bi by far less); and ask at a critical dimension +-1 nm
+    # falls on either side of the size command's target.
+    _, _, out = run(["ask"] + PLAN + ["--json"])
+    row = json.loads(out)
+    _, _, out = run(["spread"] + PLAN + ["--spread", "shell-thickness=1e-6nm", "--spread", "core-doping=0.0001%",
+                                         "--samples", "2000", "--json"])
+    rep = json.loads(out)
+    assert rep["regime_probability"][row["regime"]] == 1.0
+    assert rep["vbi_percentiles_V"]["p5"] == pytest.approx(row["vbi_V"], abs=1e-4)
+    assert rep["vbi_percentiles_V"]["p95"] == pytest.approx(row["vbi_V"], abs=1e-4)
+    base = dict(material="GaAs", core_type="p", core_radius_nm=60.0, core_doping_cm3=2e18, shell_doping_cm3=2e18,
+                dit_cm2eV=5e12)
+    crit = critical(surrogate.predict, base, "shell_thickness_nm", 2.0, 300.0, fraction_min=0.9)["value"]
+    for dx, holds in ((1.0, True), (-1.0, False)):
+        argv = ["ask"] + PLAN + ["--json"]
+        argv[argv.index("45nm")] = f"{crit + dx}nm"
+        r = json.loads(run(argv)[2])
+        assert (r["vbi_V"] >= 0.9 * r["vbi0_V"]) is holds
