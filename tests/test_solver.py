@@ -157,6 +157,8 @@ def test_accumulating_surface_keeps_shell_neutral():
 
 
 def test_no_convergence_is_a_status_not_a_number(monkeypatch):
+    # Brief: a design that does not converge says so in status and never returns a number.
+    # One Newton step cannot converge from the depletion start, so the row must fail.
     monkeypatch.setattr("training._poisson.MAX_ITER", 1)
     monkeypatch.setattr(_solver, "newton", lambda y0, p, s: __import__("training._poisson", fromlist=["x"]).newton(
         y0, p, s, max_iter=1))
@@ -175,6 +177,8 @@ def test_interlayer_lowers_field_keeps_vbi0():
 
 
 def test_parallel_equals_serial():
+    # Each design's Newton iteration is independent of its batch neighbours and workers run the
+    # same numpy code, so spreading batches over processes must give bit-identical answers.
     d = _random_designs(600, 21)
     a, b = solve(d, batch=128), solve(d, batch=128, n_jobs=2)
     np.testing.assert_array_equal(a["vbi_V"], b["vbi_V"])
