@@ -16,7 +16,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from training import build_dataset, load_spec, read_rows, solve
+from radialpn.training import build_dataset, load_spec, read_rows, solve
 
 
 def main() -> None:

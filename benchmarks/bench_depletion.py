@@ -16,8 +16,7 @@ import time
 
 import numpy as np
 
-import surrogate
-from surrogate import _depletion
+import radialpn
 
 
 def designs(n: int, seed: int = 1) -> dict:
@@ -39,23 +38,26 @@ def best_of(fn, repeat):
     return min(times)
 
 
+THREADS = min(os.cpu_count() or 1, 8)
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--designs", type=int, default=1_000_000)
     ap.add_argument("--repeat", type=int, default=3)
     a = ap.parse_args()
     d = designs(a.designs)
-    surrogate.deplete({k: (v[:10] if np.ndim(v) else v) for k, v in d.items()})  # build FD tables once
+    radialpn.deplete({k: (v[:10] if np.ndim(v) else v) for k, v in d.items()})  # build FD tables once
     print(f"depletion engine, {a.designs:,} random GaAs designs, {os.cpu_count()} cores, best of {a.repeat}")
     for stat in ("fermi-dirac", "boltzmann"):
-        one = best_of(lambda: surrogate.deplete(d, stat, threads=1), a.repeat)
-        many = best_of(lambda: surrogate.deplete(d, stat), a.repeat)
+        one = best_of(lambda: radialpn.deplete(d, stat, threads=1), a.repeat)
+        many = best_of(lambda: radialpn.deplete(d, stat, threads=THREADS), a.repeat)
         print(f"  {stat:12s} 1 thread: {a.designs / one:12,.0f} designs/s   "
-              f"{_depletion.THREADS} threads: {a.designs / many:12,.0f} designs/s   (x{one / many:.2f})")
-    res = surrogate.deplete(d)
+              f"{THREADS} threads: {a.designs / many:12,.0f} designs/s   (x{one / many:.2f})")
+    res = radialpn.deplete(d)
     ok = res["status"] == "ok"
     print(f"  rows answered: {ok.mean():.4%}; regimes: " +
-          ", ".join(f"{r} {np.mean(res['regime'] == r):.1%}" for r in surrogate.REGIMES))
+          ", ".join(f"{r} {np.mean(res['regime'] == r):.1%}" for r in radialpn.REGIMES))
 
 
 if __name__ == "__main__":

@@ -19,16 +19,16 @@ import time
 
 import numpy as np
 
-import surrogate
-from training import NODES, solve
+import radialpn
+from radialpn.training import NODES, solve
 
 
 def designs(n: int, seed: int = 2026) -> dict:
     rng = np.random.default_rng(seed)
-    mats = np.array(surrogate.material_names()[:6])
+    mats = np.array(radialpn.material_names()[:6])
     mat = mats[rng.integers(0, mats.size, n)]
     t = rng.uniform(77, 500, n)
-    gap = np.array([float(surrogate.get_material(m).band_gap(x)) for m, x in zip(mat, t)])
+    gap = np.array([float(radialpn.get_material(m).band_gap(x)) for m, x in zip(mat, t)])
     return dict(material=mat, core_type=np.where(rng.random(n) < 0.5, "p", "n"),
                 core_radius_nm=10 ** rng.uniform(np.log10(5), np.log10(500), n),
                 shell_thickness_nm=10 ** rng.uniform(0, np.log10(500), n),
@@ -62,7 +62,7 @@ def main() -> None:
     _, t1 = timed(lambda: solve(d))
     solve({k: (v[:600] if np.ndim(v) else v) for k, v in d.items()}, n_jobs=a.jobs)  # start the workers
     _, tj = timed(lambda: solve(d, n_jobs=a.jobs))
-    _, td = timed(lambda: surrogate.deplete(d))
+    _, td = timed(lambda: radialpn.deplete(d))
     n = a.designs
     print(f"  throughput (fermi-dirac): solver 1 worker {n / t1:,.0f} designs/s; {a.jobs} workers {n / tj:,.0f} "
           f"designs/s (x{t1 / tj:.2f}); depletion engine {n / td:,.0f} designs/s (x{t1 / td:,.0f} the 1-worker solver)")

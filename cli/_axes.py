@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-import surrogate
+import radialpn
 
 from . import _errors
 from ._designargs import DESIGN_FLAGS
@@ -24,55 +24,29 @@ def column(name: str, option: str) -> str:
 
 def value(col: str, text: str, option: str) -> float:
     try:
-        x = surrogate.parse_quantity(col, text)
-    except surrogate.DesignError as exc:
+        x = radialpn.parse_quantity(col, text)
+    except radialpn.DesignError as exc:
         raise _errors.UsageError(f"{option}: {exc}") from None
-    lo, hi = surrogate.NUMERIC_COLUMNS[col][:2]
+    lo, hi = radialpn.NUMERIC_COLUMNS[col][:2]
     if not lo <= x <= hi:
         raise _errors.UsageError(f"{option}: {col} allowed range [{lo:g}, {hi:g}] (got {x:g})")
     return x
 
 
-def axis_spec(text: str, option: str):
-    """NAME:LO:HI -> (column, lo, hi), e.g. shell-thickness:2nm:60nm."""
+def axis_spec(text: str, option: str, scaled: bool = False):
+    """NAME:LO:HI -> (column, lo, hi), e.g. shell-thickness:2nm:60nm; with ``scaled`` an optional
+    fourth part ``log`` or ``linear`` is passed on (``dit:0:1e13:linear``)."""
     parts = text.split(":")
-    if len(parts) != 3:
-        raise _errors.UsageError(f"{option}: expected NAME:LOW:HIGH, e.g. shell-thickness:2nm:60nm (got {text!r})")
+    if not (len(parts) == 3 or (scaled and len(parts) == 4)):
+        form = "NAME:LOW:HIGH[:linear|log]" if scaled else "NAME:LOW:HIGH"
+        raise _errors.UsageError(f"{option}: expected {form}, e.g. shell-thickness:2nm:60nm (got {text!r})")
+    if len(parts) == 4 and parts[3] not in ("log", "linear"):
+        raise _errors.UsageError(f"{option}: the scale is log or linear (got {parts[3]!r})")
     col = column(parts[0], option)
     lo, hi = value(col, parts[1], option), value(col, parts[2], option)
     if not lo < hi:
         raise _errors.UsageError(f"{option}: LOW must be below HIGH (got {lo:g} and {hi:g})")
-    return col, lo, hi
-
-
-def spread_spec(text: str, option: str):
-    """NAME=SIZE[%][,uniform] -> (column, (kind, size, relative))."""
-    if "=" not in text:
-        raise _errors.UsageError(f"{option}: expected NAME=SIZE[%][,uniform], e.g. shell-thickness=2nm or dit=50% "
-                                 f"(got {text!r})")
-    name, rest = text.split("=", 1)
-    col = column(name, option)
-    kind = "normal"
-    if rest.endswith(",uniform"):
-        kind, rest = "uniform", rest[: -len(",uniform")]
-    elif rest.endswith(",normal"):
-        rest = rest[: -len(",normal")]
-    rest = rest.strip().lstrip("±")
-    if rest.endswith("%"):
-        try:
-            size = float(rest[:-1]) / 100.0
-        except ValueError:
-            raise _errors.UsageError(f"{option}: {col}: spread {rest!r} is not a percentage") from None
-        relative = True
-    else:
-        try:
-            size = surrogate.parse_quantity(col, rest)
-        except surrogate.DesignError as exc:
-            raise _errors.UsageError(f"{option}: {exc}") from None
-        relative = False
-    if not size > 0:
-        raise _errors.UsageError(f"{option}: {col}: spread must be > 0 (got {rest!r})")
-    return col, (kind, size, relative)
+    return (col, lo, hi, parts[3]) if len(parts) == 4 else (col, lo, hi)
 
 
 def fmt_value(col: str, x: float) -> str:

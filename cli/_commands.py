@@ -13,17 +13,46 @@ import numpy as np
 from rich.panel import Panel
 from rich.table import Table
 
-import surrogate
-from surrogate import INPUT_COLUMNS, normalize_designs
+import radialpn
+from radialpn import INPUT_COLUMNS, normalize_designs
 
-from . import _engines, _errors
-from ._designargs import design_from_args, flag_hint
+from . import _errors
+from ._designargs import add_design_flags, design_from_args, engine_flags, flag_hint, progress_bar
 from ._render import CAUTION, answer_table, design_line, verify_line
 
 EXTRA_OUTPUTS = ("regime_prob", "vbi_low_V", "vbi_high_V", "in_domain", "confirm_with_solver",  # surrogate
                  "vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V",
                  "core_margin", "shell_margin", "junction_edge_nm",  # depletion engine
                  "core_majority_ln", "shell_majority_ln", "charge_residual", "iterations", "solver_version")  # solver
+
+
+def register(sub) -> None:
+    ask = sub.add_parser("ask", help="regime and built-in potential of one design")
+    add_design_flags(ask)
+    engine_flags(ask)
+    ask.add_argument("--json", action="store_true", help="print one JSON row (design-table columns)")
+    ask.add_argument("--verify", action="store_true", help="also run the reference solver and compare")
+    ask.set_defaults(handler=cmd_ask)
+
+    batch = sub.add_parser("batch", help="answer every row of a CSV design table")
+    batch.add_argument("input", metavar="IN.csv", help="CSV with design-table columns (extra columns kept)")
+    batch.add_argument("-o", "--output", metavar="OUT.csv", help="where to write (default: standard output)")
+    engine_flags(batch)
+    batch.add_argument("--second-opinion", action="store_true",
+                       help="surrogate engine: add the Gaussian-process columns and flag disagreements (slower)")
+    batch.set_defaults(handler=cmd_batch)
+
+    mats = sub.add_parser("materials", help="the material table with sources")
+    mats.add_argument("--json", action="store_true", help="print JSON keyed by material name")
+    mats.add_argument("--temperature", default="300", metavar="K", help="temperature (default 300 K)")
+    mats.set_defaults(handler=cmd_materials)
+
+
+def answer_with_progress(designs, engine, statistics, console, label=None, **options):
+    """``radialpn.predict`` under a transient progress bar (shown only on long runs)."""
+    bar, update = progress_bar(console, label or f"{engine} engine")
+    with bar:
+        return radialpn.predict(designs, engine=engine, statistics=statistics, progress=update, **options)
 
 
 def _row(table, out, i) -> dict:
@@ -50,15 +79,15 @@ def cmd_ask(args, console, out) -> int:
         raise _errors.UsageError(flag_hint(str(table.status[0])))
     if args.engine == "surrogate":  # load (and verify) the bundle before the clock starts
         try:
-            surrogate.load(table.material[0], "p" if table.p_core[0] else "n")
-        except surrogate.BundleError:
+            radialpn.load(table.material[0], "p" if table.p_core[0] else "n")
+        except radialpn.BundleError:
             pass  # predict reports it in status
     if args.engine != "solver":  # warm up (lookup tables built on first use), then time the answer
-        _engines.run(args.engine, table, args.statistics, second_opinion=True)
+        radialpn.predict(table, args.engine, args.statistics, second_opinion=True)
     t = time.perf_counter()
-    result = _engines.run(args.engine, table, args.statistics, second_opinion=True)
+    result = radialpn.predict(table, args.engine, args.statistics, second_opinion=True)
     elapsed = time.perf_counter() - t
-    mat = surrogate.get_material(table.material[0])
+    mat = radialpn.get_material(table.material[0])
     if math.isnan(table.values["cnl_eV"][0]):  # show the material's default explicitly
         table.values["cnl_eV"][0] = mat.cnl_eV
     row = _row(table, result, 0)
@@ -66,7 +95,7 @@ def cmd_ask(args, console, out) -> int:
     check = None
     if args.verify and row["status"] == "ok" and args.engine != "solver":
         t = time.perf_counter()
-        check = _row(table, _engines.run("solver", table, args.statistics), 0)
+        check = _row(table, radialpn.solve(table, args.statistics), 0)
         check["seconds"] = time.perf_counter() - t
     if args.json:
         data = {k: _json_value(v) for k, v in row.items()}
@@ -106,9 +135,9 @@ def cmd_batch(args, console, out) -> int:
                                  f"{', '.join(INPUT_COLUMNS[:4])})")
     designs = {c: [r.get(c) for r in rows] for c in INPUT_COLUMNS if c in fields}
     table = normalize_designs(designs) if rows else None
-    result = _engines.run_with_progress(args.engine, table, args.statistics, console,
-                                        second_opinion=args.second_opinion) if rows else {}
-    out_cols = [c for c in surrogate.OUTPUT_COLUMNS + EXTRA_OUTPUTS if c in result or (not rows and c in surrogate.OUTPUT_COLUMNS)]
+    result = answer_with_progress(table, args.engine, args.statistics, console,
+                                  second_opinion=args.second_opinion) if rows else {}
+    out_cols = [c for c in radialpn.OUTPUT_COLUMNS + EXTRA_OUTPUTS if c in result or (not rows and c in radialpn.OUTPUT_COLUMNS)]
     header = fields + [c for c in out_cols if c not in fields]
     target = args.output
     writing = console.status(f"writing {len(rows):,} rows") if len(rows) > 200_000 else contextlib.nullcontext()
@@ -128,7 +157,7 @@ def cmd_batch(args, console, out) -> int:
     if rows:
         status = result["status"]
         good = int((status == "ok").sum())
-        counts = {r: int((result["regime"] == r).sum()) for r in surrogate.REGIMES}
+        counts = {r: int((result["regime"] == r).sum()) for r in radialpn.REGIMES}
         summary = ", ".join(f"{n} {r}" for r, n in counts.items() if n)
         console.print(f"[dim]{len(rows)} rows · {good} answered ({summary}) · {len(rows) - good} with a reason "
                       f"in status · engine {args.engine}[/]")
@@ -162,12 +191,12 @@ def _write_csv(fh, header, rows, result, out_cols):
 def cmd_materials(args, console, out) -> int:
     t = args.temperature
     try:
-        t = surrogate.parse_quantity("temperature_K", t)
-    except surrogate.DesignError as exc:
+        t = radialpn.parse_quantity("temperature_K", t)
+    except radialpn.DesignError as exc:
         raise _errors.UsageError(str(exc)) from None
     if not 20.0 <= t <= 1000.0:
         raise _errors.UsageError(f"temperature_K: allowed range [20, 1000] (got {t:g})")
-    data = {name: surrogate.get_material(name).at(t) for name in surrogate.material_names()}
+    data = {name: radialpn.get_material(name).at(t) for name in radialpn.material_names()}
     if args.json:
         out.write(json.dumps(data, indent=2) + "\n")
         return _errors.OK

@@ -10,11 +10,11 @@ import time
 
 from rich.text import Text
 
-import surrogate
+import radialpn
 
-from . import _engines, _errors
+from . import _errors
 from ._axes import VARIABLES, value
-from ._designargs import design_from_args
+from ._designargs import add_design_flags, design_from_args, engine_flags
 from ._render import CAUTION, regime_text
 
 PLAN = dict(material="GaAs", core_type="p", core_radius_nm=45.0, shell_thickness_nm=30.0, core_doping_cm3=5e17,
@@ -29,6 +29,14 @@ HELP = """commands:
   help               this text                 quit      leave (also Ctrl-D)"""
 
 
+def register(sub) -> None:
+    co = sub.add_parser("console", help="interactive what-if session (or --jsonl for programs)")
+    add_design_flags(co)
+    engine_flags(co)
+    co.add_argument("--jsonl", action="store_true", help="read JSON commands per line, answer JSON per line")
+    co.set_defaults(handler=cmd_console)
+
+
 class Session:
     def __init__(self, design: dict, engine: str, statistics: str):
         self.design, self.engine, self.statistics = dict(design), engine, statistics
@@ -37,15 +45,15 @@ class Session:
 
     def answer(self) -> dict:
         t = time.perf_counter()
-        res = _engines.run(self.engine, {k: [v] for k, v in self.design.items()}, self.statistics,
-                           second_opinion=self.engine == "surrogate")
+        res = radialpn.predict({k: [v] for k, v in self.design.items()}, self.engine, self.statistics,
+                               second_opinion=self.engine == "surrogate")
         row = {k: (v[0].item() if hasattr(v[0], "item") else v[0]) for k, v in res.items()}
         row["ms"] = 1e3 * (time.perf_counter() - t)
         return row
 
     def set(self, name: str, text: str) -> None:
         if name in ("material",):
-            surrogate.get_material(text)  # raises MaterialError with the known names
+            radialpn.get_material(text)  # raises MaterialError with the known names
             col, val = "material", text
         elif name in ("core-type", "type"):
             if text.lower() not in ("p", "n"):
@@ -95,7 +103,7 @@ def cmd_console(args, console, out, stdin=None) -> int:
 
     stdin = stdin if stdin is not None else sys.stdin
     design = {**PLAN, **design_from_args(args)}
-    table = surrogate.normalize_designs({k: [v] for k, v in design.items()})
+    table = radialpn.normalize_designs({k: [v] for k, v in design.items()})
     if table.status[0] != "ok":
         raise _errors.UsageError(str(table.status[0]))
     session = Session({"material": table.material[0], "core_type": "p" if table.p_core[0] else "n",
@@ -103,8 +111,8 @@ def cmd_console(args, console, out, stdin=None) -> int:
                       args.engine, args.statistics)
     if args.engine == "surrogate":
         try:
-            surrogate.load(session.design["material"], session.design["core_type"])  # warm before the first answer
-        except surrogate.BundleError:
+            radialpn.load(session.design["material"], session.design["core_type"])  # warm before the first answer
+        except radialpn.BundleError:
             pass
     session.answer()  # first call builds lookup tables; later answers take about a millisecond
     if args.jsonl:
@@ -144,18 +152,16 @@ def cmd_console(args, console, out, stdin=None) -> int:
                 console.print(_line(session.answer(), None))
                 continue
             if cmd == "engine":
-                if len(words) != 2 or words[1] not in _engines.ENGINES:
-                    raise _errors.UsageError(f"engine: one of {', '.join(_engines.ENGINES)}")
+                if len(words) != 2 or words[1] not in radialpn.ENGINES:
+                    raise _errors.UsageError(f"engine: one of {', '.join(radialpn.ENGINES)}")
                 session.engine = words[1]
             elif cmd == "undo":
                 if not session.undo():
                     console.print("nothing to undo")
                     continue
             elif cmd == "verify":
-                from training import solve
-
                 t = time.perf_counter()
-                ref = solve({k: [v] for k, v in session.design.items()}, session.statistics)
+                ref = radialpn.solve({k: [v] for k, v in session.design.items()}, session.statistics)
                 ms = 1e3 * (time.perf_counter() - t)
                 if ref["status"][0] != "ok":
                     console.print(f"solver: {ref['status'][0]}")
@@ -169,7 +175,7 @@ def cmd_console(args, console, out, stdin=None) -> int:
                 session.set(words[1].lower() if words[1] != "T" else "T", " ".join(words[2:]))
             else:
                 raise _errors.UsageError(f"unknown command {line.strip()!r}; type `help`")
-        except (_errors.UsageError, surrogate.RadialpnError) as exc:
+        except (_errors.UsageError, radialpn.RadialpnError) as exc:
             console.print(Text(f"error: {exc}", style="#d9534f"))
             continue
         row = session.answer()
@@ -198,10 +204,10 @@ def _jsonl(session: Session, stdin, out) -> int:
             if msg.get("cmd") == "undo":
                 session.undo()
             elif msg.get("cmd") == "engine":
-                if msg.get("engine") not in _engines.ENGINES:
-                    raise ValueError(f"engine: one of {', '.join(_engines.ENGINES)}")
+                if msg.get("engine") not in radialpn.ENGINES:
+                    raise ValueError(f"engine: one of {', '.join(radialpn.ENGINES)}")
                 session.engine = msg["engine"]
-            table = surrogate.normalize_designs({k: [v] for k, v in session.design.items()})
+            table = radialpn.normalize_designs({k: [v] for k, v in session.design.items()})
             if table.status[0] != "ok":
                 reply = {"error": str(table.status[0])}
                 session.undo()
@@ -209,7 +215,7 @@ def _jsonl(session: Session, stdin, out) -> int:
                 row = session.answer()
                 reply = {k: (None if isinstance(v, float) and math.isnan(v) else v) for k, v in row.items()}
                 reply["design"] = session.design
-        except (ValueError, TypeError, surrogate.RadialpnError) as exc:
+        except (ValueError, TypeError, radialpn.RadialpnError) as exc:
             reply = {"error": str(exc).splitlines()[0]}
         out.write(json.dumps(reply, default=lambda o: o.item() if hasattr(o, "item") else str(o)) + "\n")
         out.flush()

@@ -8,11 +8,22 @@ import time
 from . import _errors
 
 
+def register(sub) -> None:
+    ds = sub.add_parser("dataset", help="build a training set from a domain spec with the reference solver")
+    ds.add_argument("spec", metavar="SPEC.toml", help="domain spec (see models/specs/)")
+    ds.add_argument("-o", "--output", metavar="DIR", required=True, help="dataset directory (resumable)")
+    ds.add_argument("--jobs", type=int, default=-1, help="worker processes (default: all cores)")
+    ds.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://10.0.0.5:8786")
+    ds.set_defaults(handler=cmd_dataset)
+
+
 def cmd_dataset(args, console, out) -> int:
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    from training import build_dataset, load_spec, read_rows
+    from radialpn.training import build_dataset, load_spec, read_rows
 
+    if args.jobs == 0 or args.jobs < -1:
+        raise _errors.UsageError(f"--jobs: a number of workers >= 1, or -1 for all cores (got {args.jobs})")
     spec = load_spec(args.spec)
     cluster = contextlib.nullcontext()
     if args.scheduler:

@@ -6,6 +6,7 @@ photodetector array on its reactor "Heron". Every number shown is computed, none
 
 from __future__ import annotations
 
+import argparse
 import shlex
 
 from rich.panel import Panel
@@ -38,8 +39,16 @@ STEPS = (
 )
 
 
+def register(sub) -> None:
+    import radialpn
+
+    demo = sub.add_parser("demo", help="a walk through radialpn on an invented growth plan")
+    demo.add_argument("--statistics", choices=radialpn.STATISTICS, default="fermi-dirac", help=argparse.SUPPRESS)
+    demo.set_defaults(handler=cmd_demo)
+
+
 def cmd_demo(args, console, out) -> int:
-    from . import build_parser, main  # noqa: F401  (same parser as the command line)
+    from . import build_parser  # the same parser as the command line
 
     console.print(Panel(
         "[bold]Kestrel Bay Photonics[/] (an invented lab) is planning a run of GaAs core-shell nanowires on its "
@@ -52,15 +61,9 @@ def cmd_demo(args, console, out) -> int:
         console.print(Rule(title, style="#5b8def"))
         console.print(Text(f"$ radialpn {command}", style="dim"))
         sub = parser.parse_args(shlex.split(command))
-        code = _handler(sub.command)(sub, console, out)
+        code = sub.handler(sub, console, out)
         if code != _errors.OK:
             return code
         console.print(Text(note, style="italic"))
     return _errors.OK
 
-
-def _handler(name):
-    from . import _commands, _map_cmd, _size_cmd, _spread_cmd
-
-    return {"ask": _commands.cmd_ask, "map": _map_cmd.cmd_map, "size": _size_cmd.cmd_size,
-            "spread": _spread_cmd.cmd_spread}[name]

@@ -34,3 +34,58 @@ def flag_hint(message: str) -> str:
     field = message.split(":", 1)[0]
     flag = COLUMN_FLAG.get(field)
     return f"{flag} ({message})" if flag else message
+
+
+def engine_flags(sp, engines=None, default=None) -> None:
+    """--engine and --statistics, shared by every command that asks an engine."""
+    import radialpn
+
+    engines = engines or radialpn.ENGINES
+    sp.add_argument("--engine", choices=engines, default=default or radialpn.DEFAULT_ENGINE, help="which engine answers")
+    sp.add_argument("--statistics", choices=radialpn.STATISTICS, default="fermi-dirac",
+                    help="carrier statistics for the bulk Fermi levels (default fermi-dirac)")
+
+
+def target_flags(sp) -> None:
+    """The V_bi target of size, search and spread."""
+    sp.add_argument("--fraction", type=float, default=0.9, help="target V_bi >= FRACTION * V_bi0 (default 0.9)")
+    sp.add_argument("--vbi-min", metavar="V", help="target V_bi >= V instead, e.g. 0.8V")
+
+
+def target_from_args(args) -> dict:
+    """The target keywords of the design API (fraction_min, vbi_min_V) from the flags."""
+    import radialpn
+
+    from . import _errors
+
+    if args.vbi_min is None:
+        return {"fraction_min": args.fraction, "vbi_min_V": None}
+    text = str(args.vbi_min).strip()
+    body = text[:-1] if text.lower().endswith("v") else text
+    try:
+        v = float(body)
+    except ValueError:
+        raise _errors.UsageError(f"--vbi-min: expected a voltage such as 0.8V (got {text!r})") from None
+    if not 0 < v < 20:
+        raise _errors.UsageError(f"--vbi-min: allowed range (0, 20) V (got {text})")
+    return {"fraction_min": None, "vbi_min_V": v}
+
+
+def progress_bar(console, label: str):
+    """A (context manager, callback) pair: a transient rich progress bar driven by the design
+    API's ``progress(done, total)`` calls."""
+    import time
+
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    bar = Progress(TextColumn("[#5b8def]{task.description}"), BarColumn(), MofNCompleteColumn(),
+                   TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), console=console, transient=True)
+    state = {}
+
+    def update(done, total):
+        if "task" not in state:
+            state["task"], state["t0"] = bar.add_task(label, total=total, rate=""), time.perf_counter()
+        rate = done / max(time.perf_counter() - state["t0"], 1e-9)
+        bar.update(state["task"], completed=done, total=total, rate=f"{rate:,.0f}/s")
+
+    return bar, update

@@ -9,12 +9,11 @@ import math
 import numpy as np
 from rich.text import Text
 
-import surrogate
-from surrogate._search import axis, grid
+import radialpn
 
-from . import _engines, _errors, _png
+from . import _errors, _png
 from ._axes import UNITS, axis_spec, fmt_value
-from ._designargs import design_from_args, flag_hint
+from ._designargs import add_design_flags, design_from_args, engine_flags, progress_bar
 from ._render import CAUTION, REGIME_STYLE
 
 #: V_bi colour scale (low -> high), eight steps of our own
@@ -22,13 +21,18 @@ SCALE = ("#2b1d3f", "#3b2f6b", "#33508f", "#1f7a99", "#1f9e8a", "#54b86a", "#a5c
 NO_ANSWER = "#555555"
 
 
-def _base(args, xcol, ycol, lo):
-    design = design_from_args(args)
-    probe = {**design, xcol: lo[0], ycol: lo[1]}
-    table = surrogate.normalize_designs({k: [v] for k, v in probe.items()})
-    if table.status[0] != "ok":
-        raise _errors.UsageError(flag_hint(str(table.status[0])))
-    return design
+def register(sub) -> None:
+    mp = sub.add_parser("map", help="regimes and V_bi over two design variables, the rest fixed")
+    add_design_flags(mp)
+    engine_flags(mp)
+    mp.add_argument("--x", required=True, metavar="NAME:LOW:HIGH", help="horizontal axis, e.g. shell-thickness:2nm:60nm "
+                    "(radii, dopings and D_it on a log scale unless :linear is added)")
+    mp.add_argument("--y", required=True, metavar="NAME:LOW:HIGH", help="vertical axis, e.g. core-radius:10nm:150nm")
+    mp.add_argument("--cells", default="32x16", metavar="WxH", help="grid size (default 32x16)")
+    mp.add_argument("--csv", metavar="FILE", help="also write every grid point as CSV")
+    mp.add_argument("--png", metavar="FILE", help="also write a PNG (plot extra)")
+    mp.add_argument("--json", action="store_true", help="print the grid as JSON instead")
+    mp.set_defaults(handler=cmd_map)
 
 
 def _ticks(values, col, n):
@@ -90,24 +94,19 @@ def render_map(console, xs, ys, xcol, ycol, regime, vbi, mark=None):
 
 
 def cmd_map(args, console, out) -> int:
-    xcol, xlo, xhi = axis_spec(args.x, "--x")
-    ycol, ylo, yhi = axis_spec(args.y, "--y")
-    if xcol == ycol:
-        raise _errors.UsageError(f"--y: must differ from --x (both are {xcol})")
+    x, y = axis_spec(args.x, "--x", scaled=True), axis_spec(args.y, "--y", scaled=True)
     try:
-        nx, ny = (int(v) for v in args.cells.lower().split("x"))
+        cells = tuple(int(v) for v in args.cells.lower().split("x"))
     except ValueError:
         raise _errors.UsageError(f"--cells: expected WIDTHxHEIGHT, e.g. 32x16 (got {args.cells!r})") from None
-    if not (2 <= nx <= 400 and 2 <= ny <= 400):
-        raise _errors.UsageError(f"--cells: each side in [2, 400] (got {args.cells})")
-    base = _base(args, xcol, ycol, (xlo, ylo))
-    xs, ys = axis(xcol, xlo, xhi, nx), axis(ycol, ylo, yhi, ny)
-    designs = grid(base, xcol, xs, ycol, ys)
-    res = _engines.run_with_progress(args.engine, designs, args.statistics, console)
-    regime = np.asarray(res["regime"], dtype=object).reshape(ny, nx)
-    vbi = np.asarray(res["vbi_V"], dtype=float).reshape(ny, nx)
+    bar, update = progress_bar(console, f"{args.engine} engine")
+    with bar:
+        m = radialpn.regime_map(design_from_args(args), x, y, cells, args.engine, args.statistics, progress=update)
+    xs, ys, xcol, ycol = m["x_values"], m["y_values"], m["x_column"], m["y_column"]
+    regime, vbi, res = m["regime"], m["vbi_V"], m["answers"]
+    nx, ny = xs.size, ys.size
     if args.csv:
-        _write_csv(args.csv, designs, res)
+        _write_csv(args.csv, m["designs"], res)
     if args.png:
         _write_png(args.png, xs, ys, xcol, ycol, regime, vbi, args.engine)
     if args.json:
@@ -115,13 +114,7 @@ def cmd_map(args, console, out) -> int:
                               "regime": regime.tolist(), "vbi_V": [[None if not math.isfinite(v) else v for v in row]
                                                                    for row in vbi], "engine": args.engine}) + "\n")
         return _errors.OK
-    mark = None
-    if xcol in base and ycol in base:
-        bx, by = float(surrogate.parse_quantity(xcol, base[xcol])), float(surrogate.parse_quantity(ycol, base[ycol]))
-        if xlo <= bx <= xhi and ylo <= by <= yhi:
-            mark = (int(np.argmin(np.abs(np.log(ys / by)) if ycol in _LOG else np.abs(ys - by))),
-                    int(np.argmin(np.abs(np.log(xs / bx)) if xcol in _LOG else np.abs(xs - bx))))
-    render_map(console, xs, ys, xcol, ycol, regime, vbi, mark)
+    render_map(console, xs, ys, xcol, ycol, regime, vbi, m["mark"])
     bad = int((res["status"] != "ok").sum())
     note = f" · {bad} cells without answer ({res['status'][res['status'] != 'ok'][0]})" if bad else ""
     console.print(f"[dim]{nx}×{ny} designs by the {args.engine} engine{note}. {CAUTION}[/]")

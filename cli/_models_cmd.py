@@ -8,7 +8,7 @@ from pathlib import Path
 from rich.markup import escape
 from rich.table import Table
 
-import surrogate
+import radialpn
 
 from . import _errors
 
@@ -17,12 +17,27 @@ def _bundle_path(name_or_path: str) -> Path:
     p = Path(name_or_path)
     if (p / "bundle.json").is_file():
         return p
-    from surrogate._bundle import find_bundles
-
-    found = find_bundles()
+    found = {name: path for name, _, _, path in radialpn.available()}
     if name_or_path in found:
         return found[name_or_path]
     raise _errors.UsageError(f"bundle: no bundle {name_or_path!r} (installed: {', '.join(found) or 'none'})")
+
+
+def register(sub) -> None:
+    mo = sub.add_parser("models", help="the installed surrogate bundles: domain and validated accuracy")
+    mo.set_defaults(handler=cmd_models)
+    val = sub.add_parser("validate", help="check a surrogate bundle against fresh reference-solver runs")
+    val.add_argument("bundle", metavar="BUNDLE", help="bundle directory or name (see `radialpn models`)")
+    val.add_argument("--rows", type=int, default=6000, help="fresh solver runs (default 6000; >= 5000 advised)")
+    val.add_argument("--seed", type=int, default=777, help="seed of the fresh designs")
+    val.add_argument("--no-write", action="store_true", help="do not store the report in the bundle and card")
+    val.set_defaults(handler=cmd_validate)
+    tr = sub.add_parser("train", help="build a surrogate bundle from a domain spec (dataset, fit, validation)")
+    tr.add_argument("spec", metavar="SPEC.toml")
+    tr.add_argument("--data", metavar="DIR", help="dataset directory (default: data/NAME; resumable)")
+    tr.add_argument("-o", "--output", metavar="DIR", help="bundle directory (default: models/NAME)")
+    tr.add_argument("--jobs", type=int, default=-1, help="worker processes for the solver")
+    tr.set_defaults(handler=cmd_train)
 
 
 SHORT = {"core_radius_nm": "core [nm]", "shell_thickness_nm": "shell [nm]", "core_doping_cm3": "N core [cm⁻³]",
@@ -31,7 +46,7 @@ SHORT = {"core_radius_nm": "core [nm]", "shell_thickness_nm": "shell [nm]", "cor
 
 
 def cmd_models(args, console, out) -> int:
-    rows = surrogate.available()
+    rows = radialpn.available()
     if not rows:
         console.print("No surrogate bundles installed. Build one with `radialpn train models/specs/NAME.toml`.")
         return _errors.OK
@@ -57,7 +72,7 @@ def cmd_models(args, console, out) -> int:
 
 
 def cmd_validate(args, console, out) -> int:
-    from training import validate_bundle
+    from radialpn.training import validate_bundle
 
     if args.rows < 100:
         raise _errors.UsageError(f"--rows: allowed range [100, 10000000] (got {args.rows})")
@@ -91,7 +106,7 @@ def cmd_validate(args, console, out) -> int:
 
 
 def cmd_train(args, console, out) -> int:
-    from training import load_spec, train_bundle
+    from radialpn.training import load_spec, train_bundle
 
     spec = load_spec(args.spec)
     data = args.data or str(Path("data") / spec.name)

@@ -8,10 +8,10 @@ import numpy as np
 from rich.panel import Panel
 from rich.text import Text
 
-import surrogate
+import radialpn
 
 from . import _errors, _png
-from ._designargs import design_from_args, flag_hint
+from ._designargs import add_design_flags, design_from_args, flag_hint
 from ._plot import BrailleCanvas
 from ._render import CAUTION, design_line, regime_text
 
@@ -20,25 +20,33 @@ REGION_GLYPH = {"core-neutral": ("█", "#5b8def"), "core-depleted": ("░", "#5
                 "shell-neutral": ("█", "#e8803a"), "shell-depleted": ("░", "#e8803a")}
 
 
-def _profile(engine, design, statistics):
-    if engine == "solver":
-        from training import solver_profile
-
-        return solver_profile(design, statistics)
-    return surrogate.depletion_profile(design, statistics, points=800)
+def register(sub) -> None:
+    prof = sub.add_parser("profile", help="band diagram of one design (E_c, E_v, E_F against radius)")
+    add_design_flags(prof)
+    prof.add_argument("--engine", choices=("solver", "depletion"), default="solver", help="which engine draws")
+    prof.add_argument("--statistics", choices=radialpn.STATISTICS, default="fermi-dirac", help="carrier statistics")
+    prof.add_argument("--compare", action="store_true", help="overlay the depletion approximation's bands")
+    prof.add_argument("--png", metavar="FILE", help="also write a PNG (needs the plot extra: matplotlib)")
+    prof.add_argument("--json", action="store_true", help="print the profile arrays as JSON")
+    prof.add_argument("--width", type=int, default=72, help="plot width in characters")
+    prof.add_argument("--height", type=int, default=16, help="plot height in characters")
+    prof.set_defaults(handler=cmd_profile)
 
 
 def cmd_profile(args, console, out) -> int:
+    if not (10 <= args.width <= 400 and 4 <= args.height <= 200):
+        raise _errors.UsageError(f"--width/--height: allowed ranges [10, 400] and [4, 200] characters "
+                                 f"(got {args.width} and {args.height})")
     design = design_from_args(args)
-    table = surrogate.normalize_designs({k: [v] for k, v in design.items()})
+    table = radialpn.normalize_designs({k: [v] for k, v in design.items()})
     if table.status[0] != "ok":
         raise _errors.UsageError(flag_hint(str(table.status[0])))
-    main = _profile(args.engine, design, args.statistics)
+    main = radialpn.profile(design, args.engine, args.statistics)
     other = None
     if args.compare:
         try:
-            other = surrogate.depletion_profile(design, args.statistics, points=800)
-        except surrogate.RadialpnError as exc:
+            other = radialpn.profile(design, "depletion", args.statistics)
+        except radialpn.RadialpnError as exc:
             other = str(exc)
     if args.json:
         keep = {k: (v.tolist() if isinstance(v, np.ndarray) else v) for k, v in main.items()}
@@ -47,7 +55,7 @@ def cmd_profile(args, console, out) -> int:
     row = {"material": table.material[0], "core_type": "p" if table.p_core[0] else "n",
            **{k: float(v[0]) for k, v in table.values.items()}}
     if np.isnan(row["cnl_eV"]):
-        row["cnl_eV"] = surrogate.get_material(row["material"]).cnl_eV
+        row["cnl_eV"] = radialpn.get_material(row["material"]).cnl_eV
     console.print(Panel.fit(design_line(row), title=f"radialpn profile · {args.engine} · {args.statistics}",
                             border_style="#5b8def"))
     width = max(30, min(args.width, console.width - 12))

@@ -39,11 +39,12 @@ def sha256(path: Path) -> str:
 
 
 def bundle_dirs() -> list:
-    """Where bundles are looked for: $RADIALPN_MODELS (path list), the installed package's
-    bundles, then the source tree's models/ directory."""
+    """Where bundles are looked for: $RADIALPN_MODELS (path list), then the installed package's
+    bundles (package data in radialpn/bundles; in an editable install of the source tree, its
+    models/ folder)."""
     here = Path(__file__).resolve().parent
     dirs = [Path(p) for p in os.environ.get("RADIALPN_MODELS", "").split(os.pathsep) if p]
-    dirs += [here / "bundles", here.parent / "models"]
+    dirs.append(here / "bundles" if here.name != "surrogate" else here.parent / "models")
     return [d for d in dirs if d.is_dir()]
 
 
@@ -96,6 +97,12 @@ def read_bundle(path) -> tuple:
     return meta, arrays
 
 
+def bundle_checksums(path) -> str:
+    """The text of SHA256SUMS for the bundle files in directory ``path``."""
+    path = Path(path)
+    return "".join(f"{sha256(path / n)}  {n}\n" for n in FILES)
+
+
 def write_bundle(path, meta: dict, arrays: dict, card: str) -> None:
     """Write a bundle directory (files first, checksums last)."""
     path = Path(path)
@@ -103,6 +110,6 @@ def write_bundle(path, meta: dict, arrays: dict, card: str) -> None:
     meta = dict(meta, format=FORMAT, format_version=FORMAT_VERSION)
     (path / "bundle.json").write_text(json.dumps(meta, indent=1, sort_keys=True), encoding="utf-8")
     with open(path / "arrays.npz", "wb") as fh:
-        np.savez(fh, **arrays)
+        np.savez_compressed(fh, **arrays)
     (path / "CARD.md").write_text(card, encoding="utf-8")
-    (path / "SHA256SUMS").write_text("".join(f"{sha256(path / n)}  {n}\n" for n in FILES), encoding="ascii")
+    (path / "SHA256SUMS").write_text(bundle_checksums(path), encoding="ascii")

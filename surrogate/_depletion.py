@@ -1,5 +1,5 @@
 """Depletion-approximation engine for radial p-n nanowires: the four-regime analytic model of
-../shared/design/physics.md section 4, vectorised over arrays of designs.
+docs/physics.md section 7, vectorised over arrays of designs.
 
 Geometry and charges (p-core/n-shell; an n-core design is solved as its mirror image):
 core 0 <= r < a of acceptors N_A, shell a <= r <= R of donors N_D, surface states D_it about
@@ -33,7 +33,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 
 from ._constants import CM2_TO_M2, CM3_TO_M3, EPS0, K_B_EV, NM, Q
-from ._design import REGIMES, DesignTable, _categories, normalize_designs
+from ._design import REGIMES, DesignTable, categories, normalize_designs
 from ._materials import get_material
 from ._roots import solve_bracketed
 from ._statistics import check_statistics, reduced_level
@@ -57,7 +57,7 @@ def material_arrays(material, temperature_K, statistics="fermi-dirac", core_dopi
     t = np.asarray(temperature_K, dtype=float)
     n = t.size
     out = {k: np.empty(n) for k in ("band_gap_eV", "permittivity_rel", "nc_cm3", "nv_cm3", "cnl_eV")}
-    names, inv = _categories(material, n)
+    names, inv = categories(material, n)
     for k, name in enumerate(names):
         sel = inv == k
         if not name:
@@ -83,7 +83,7 @@ def bulk_levels(doping_cm3, dos_cm3, kt_eV, statistics):
 
 def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     """Solve p-core/n-shell designs (all SI: m^-3, m, F/m, eV, m^-2 eV^-1) with the depletion
-    approximation. Returns a dict of internal arrays (see ``_outputs``)."""
+    approximation. Returns a dict of internal arrays (see ``outputs``)."""
     K = Q / (4.0 * eps)  # [V m]: a potential is K * N [m^-3] * r^2 [m^2]
     vbi0 = Eg - dp - dn
     phi0 = Eg - dn - Ecnl
@@ -164,7 +164,7 @@ def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
                                           it_c.mean() if it_c.size else 0]))
 
 
-def _outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None):
+def outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None):
     """Output columns (SI lengths) and margins from the internal solution ``s``."""
     K, u, w, coupled = s["K"], s["u"], s["w"], s["coupled"]
     vbi0 = s["vbi0"]
@@ -196,7 +196,7 @@ def _outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None):
                 core_margin=core_margin, shell_margin=shell_margin, surface_barrier_V=s["phi0"])
 
 
-def _prepare(table: DesignTable, statistics: str):
+def prepare(table: DesignTable, statistics: str):
     """SI arrays of the mirrored p-core problem for every row of a validated table."""
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
@@ -220,7 +220,7 @@ def _prepare(table: DesignTable, statistics: str):
     ), cnl
 
 
-def _row_status(table: DesignTable, prob, sol, out, cnl):
+def row_status(table: DesignTable, prob, sol, out, cnl):
     status = table.status.copy()
 
     def fail(mask, text):
@@ -243,12 +243,12 @@ CHUNK_ROWS = 1 << 16  #: rows per work unit: keeps temporaries in cache
 THREADS = min(os.cpu_count() or 1, 8)  #: worker threads for large batches (numpy frees the GIL)
 
 
-def _deplete_table(table: DesignTable, statistics: str) -> dict:
-    prob, cnl = _prepare(table, statistics)
+def deplete_table(table: DesignTable, statistics: str) -> dict:
+    prob, cnl = prepare(table, statistics)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
-        out = _outputs(sol, **prob)
-    status = _row_status(table, prob, sol, out, cnl)
+        out = outputs(sol, **prob)
+    status = row_status(table, prob, sol, out, cnl)
     good = status == "ok"
     nan = np.nan
     names = np.array(REGIMES + ("",), dtype=object)
@@ -272,9 +272,9 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     """Regime and built-in potential of each design by the depletion approximation.
 
     ``designs``: mapping of design-table column -> array or scalar, a list of row dicts, or a
-    pandas DataFrame (interface.md names and units). ``statistics``: ``"fermi-dirac"`` or
+    pandas DataFrame (docs/design-table.md names and units). ``statistics``: ``"fermi-dirac"`` or
     ``"boltzmann"`` for the bulk Fermi levels. ``threads``: worker threads for large batches
-    (default: ``THREADS``). Returns a mapping of the output columns of interface.md (numpy
+    (default: ``THREADS``). Returns a mapping of the output columns of the design table (docs/design-table.md) (numpy
     arrays, one entry per input row, NaN and regime "" where ``status`` is not "ok") plus
     continuous boundary margins: ``core_margin`` (r_p/a where the core keeps a neutral region;
     below zero, -sqrt(dV / (q N a^2 / 4 eps)) where it is emptied with its potential dV short
@@ -286,9 +286,9 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     statistics = check_statistics(statistics)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     if table.n <= CHUNK_ROWS:
-        return _deplete_table(table, statistics)
+        return deplete_table(table, statistics)
     parts = [slice(i, min(i + CHUNK_ROWS, table.n)) for i in range(0, table.n, CHUNK_ROWS)]
-    work = lambda sl: _deplete_table(table.take(sl), statistics)  # noqa: E731
+    work = lambda sl: deplete_table(table.take(sl), statistics)  # noqa: E731
     nthreads = THREADS if threads is None else max(1, int(threads))
     if nthreads > 1:
         with ThreadPoolExecutor(nthreads) as pool:

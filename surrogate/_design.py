@@ -1,4 +1,4 @@
-"""The design table (../shared/design/interface.md): column names, defaults, allowed ranges,
+"""The design table (docs/design-table.md): column names, defaults, allowed ranges,
 unit-suffix parsing, and the one validation layer every entry point (API, CLI, files) uses.
 
 ``normalize_designs`` turns a mapping of column -> array (or a list of row dicts, or a pandas
@@ -138,7 +138,7 @@ class _Status:
         return np.full(self.bad.size, "ok", dtype=object) if self.text is None else self.text
 
 
-def _categories(raw, n):
+def categories(raw, n):
     """Map a categorical column to (unique values, inverse index) cheaply when it is uniform."""
     if np.ndim(raw) == 0:
         return [raw], np.zeros(n, dtype=np.intp)
@@ -166,7 +166,7 @@ def _each_category(cols, name, n, st, missing):
     if raw is None:
         st.fail(np.ones(n, dtype=bool), missing)
         return
-    uniq, inv = _categories(raw, n)
+    uniq, inv = categories(raw, n)
     for k, value in enumerate(uniq):
         yield value, inv == k
 
@@ -219,7 +219,7 @@ def normalize_designs(designs) -> DesignTable:
             x = np.broadcast_to(arr.astype(float), (n,))
             blank = np.isnan(x)
         else:
-            uniq, inv = _categories(raw, n)
+            uniq, inv = categories(raw, n)
             parsed = np.full(len(uniq), np.nan)
             blank_u = np.zeros(len(uniq), dtype=bool)
             for k, v in enumerate(uniq):

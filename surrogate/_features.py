@@ -7,7 +7,7 @@ from __future__ import annotations
 import numpy as np
 
 from ._constants import EPS0, K_B_EV, NM, Q
-from ._depletion import _deplete_table, material_arrays
+from ._depletion import deplete_table, material_arrays
 from ._design import REGIMES, DesignTable
 
 FEATURES_VERSION = 1  #: bump when a feature changes: bundles record the version they need
@@ -24,7 +24,7 @@ def features(table: DesignTable, statistics: str = "fermi-dirac"):
     """Feature matrix X (n, len(FEATURE_NAMES)) [mixed units, see names] and the depletion
     engine's output mapping for the rows of a validated table. Rows the engine cannot answer
     get NaN depletion features (the trees route missing values)."""
-    da = _deplete_table(table, statistics)
+    da = deplete_table(table, statistics)
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
     a, t = v["core_radius_nm"], v["shell_thickness_nm"]

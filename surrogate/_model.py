@@ -1,7 +1,7 @@
 """The surrogate runtime: a loaded bundle answering design-table rows in milliseconds.
 
 ``load(material, core_type)`` returns a ``SurrogateModel``; its one ``predict(designs)`` takes
-what ``deplete`` takes and returns the output columns of interface.md plus ``regime_prob``,
+what ``deplete`` takes and returns the output columns of the design table (docs/design-table.md) plus ``regime_prob``,
 ``vbi_low_V``, ``vbi_high_V``, ``in_domain`` and ``confirm_with_solver``. Designs outside the
 bundle's trained domain are flagged and get no numbers (never extrapolated).
 """
@@ -56,17 +56,9 @@ class SurrogateModel:
         self.temperature_ = float(meta["temperature"])
         self.q_gbm_ = float(meta["conformal"]["q_gbm"])
         self.q_gp_ = float(meta["conformal"]["q_gp"])
-        self._accel_checked = False
 
     def __repr__(self) -> str:
         return f"SurrogateModel({self.name!r}: {self.material} {self.core_type}-core, {self.statistics})"
-
-    def _accelerate(self):
-        """Turn on scikit-learn's compiled predictor if it reproduces the numpy walk (itself
-        checked against the fitted models at load) on the reference rows."""
-        if not self._accel_checked:
-            self._accel_checked = True
-            self.forest_.verify_accel(self.ref_X_, self.forest_.raw_numpy(self.ref_X_))
 
     def domain_check(self, table: DesignTable) -> np.ndarray:
         """Per row: "" inside the trained domain, else the first reason it is outside."""
@@ -111,8 +103,6 @@ class SurrogateModel:
         gp_cols = {k: np.full(n, np.nan) for k in ("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V")} if second_opinion else {}
         rows = np.flatnonzero(in_domain)
         if rows.size:
-            if rows.size >= 512:
-                self._accelerate()
             sub = table.take(rows)
             X, da = features(sub, self.statistics)
             good = np.isfinite(X).all(1) & (da["status"] == "ok")
@@ -199,7 +189,7 @@ def available() -> list:
     return out
 
 
-def predict(designs, second_opinion: bool = False) -> dict:
+def predict_bundles(designs, second_opinion: bool = False) -> dict:
     """Answer designs of any material/core type with the matching bundles (rows without one
     get a status)."""
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)

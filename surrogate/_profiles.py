@@ -1,5 +1,5 @@
 """Band profiles of the depletion approximation, rebuilt piecewise from the regime solution of
-``_depletion`` (same equations, physics.md sections 3-4). ``fermi_minus_ev`` is vectorised
+``_depletion`` (same equations, docs/physics.md sections 6-7). ``fermi_minus_ev`` is vectorised
 over designs (it also seeds the reference solver); ``depletion_profile`` is the one-design
 convenience for users and the front end."""
 
@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from ._constants import NM
-from ._depletion import _deplete_table, _prepare, solve_pcore
+from ._depletion import deplete_table, prepare, solve_pcore
 from ._design import check_design
 from ._errors import RadialpnError
 from ._statistics import check_statistics
@@ -18,7 +18,7 @@ _TINY = 1e-300
 
 def _region(r, r0):
     """(psi(r) - psi(r0)) / (-K N) [m^2] in a uniform region of charge density q N whose field
-    vanishes at r0 (physics.md section 3); r0 may be 0 (the log term then vanishes)."""
+    vanishes at r0 (docs/physics.md section 6); r0 may be 0 (the log term then vanishes)."""
     r0 = np.asarray(r0, dtype=float)
     return r * r - r0 * r0 - 2.0 * r0 * r0 * np.log(np.maximum(r, _TINY) / np.maximum(r0, _TINY))
 
@@ -65,10 +65,10 @@ def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int
     """
     statistics = check_statistics(statistics)
     table = check_design(design)
-    res = _deplete_table(table, statistics)
+    res = deplete_table(table, statistics)
     if res["status"][0] != "ok":
         raise RadialpnError(str(res["status"][0]))
-    prob, _ = _prepare(table, statistics)
+    prob, _ = prepare(table, statistics)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
     a, R = float(prob["a"][0]), float(prob["R"][0])

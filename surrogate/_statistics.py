@@ -106,9 +106,11 @@ def _table_eval(em, lnf, dlnf):
     return fm, fm * dg
 
 
-def fermi_half(eta):
-    """Normalised Fermi-Dirac integral F_1/2 [1] of reduced Fermi level ``eta`` [1]."""
-    return fermi_half_and_derivative(eta)[0]
+def fermi_half(eta, derivative: bool = False):
+    """Normalised Fermi-Dirac integral F_1/2 [1] of reduced Fermi level ``eta`` [1]; with
+    ``derivative`` the pair (F_1/2, dF_1/2/deta = F_-1/2)."""
+    f, df = fermi_half_and_derivative(eta)
+    return (f, df) if derivative else f
 
 
 def _hermite(x0, step, y, dy, x):

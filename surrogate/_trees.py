@@ -8,20 +8,15 @@ per tree: ``roots`` (int32) and ``tree_class`` (int32); per output: ``baseline``
 The raw score of output k is baseline[k] + the sum of the leaf values of the trees of class k
 (the additive model of Friedman, Ann. Statist. 29, 1189 (2001), doi:10.1214/aos/1013203451).
 
-Evaluation: a level-synchronous walk of all trees at once in numpy (fast for single rows and
-small batches). If scikit-learn is installed, its compiled tree predictor is rebuilt from the
-same arrays for large batches, and used only after it reproduces the numpy result on the
-bundle's reference rows.
+Evaluation: a level-synchronous walk of all trees at once in numpy, at every batch size. No
+other library is imported: a bundle answers wherever numpy runs.
 """
 
 from __future__ import annotations
 
-import os
-
 import numpy as np
 
 NUMPY_CHUNK = 1 << 17  #: rows x trees per numpy step
-ACCEL_MIN_ROWS = 512  #: batches at least this large use the compiled predictor when available
 
 
 class TreeEnsemble:
@@ -48,7 +43,6 @@ class TreeEnsemble:
         self.child = np.ascontiguousarray(np.column_stack([self.left, self.right]))  # [node, go right]
         self.onehot = np.zeros((self.roots.size, self.baseline.size))
         self.onehot[np.arange(self.roots.size), self.tree_class] = 1.0
-        self._accel = None  # None: untried; False: unavailable; else list of predictors per class
 
     @classmethod
     def stack(cls, ensembles) -> "TreeEnsemble":
@@ -98,59 +92,6 @@ class TreeEnsemble:
             out[s:s + step] = self.value[node] @ self.onehot + self.baseline
         return out
 
-    def _build_accel(self):
-        try:
-            from sklearn.ensemble._hist_gradient_boosting.common import (
-                PREDICTOR_RECORD_DTYPE, X_BITSET_INNER_DTYPE,
-            )
-            from sklearn.ensemble._hist_gradient_boosting.predictor import TreePredictor
-        except Exception:  # not installed, or its private layout moved: stay with numpy
-            return False
-        ends = np.append(self.roots[1:], self.feature.size)
-        empty = np.zeros((0, 8), dtype=X_BITSET_INNER_DTYPE)
-        preds = []
-        for root, end, cls in zip(self.roots, ends, self.tree_class):
-            sl = slice(root, end)
-            nodes = np.zeros(end - root, dtype=PREDICTOR_RECORD_DTYPE)
-            leaf = self.left[sl] == np.arange(root, end)
-            nodes["value"] = self.value[sl]
-            nodes["feature_idx"] = self.feature[sl]
-            nodes["num_threshold"] = self.threshold[sl]
-            nodes["missing_go_to_left"] = self.missing_left[sl]
-            nodes["left"] = np.where(leaf, 0, self.left[sl] - root)
-            nodes["right"] = np.where(leaf, 0, self.right[sl] - root)
-            nodes["is_leaf"] = leaf
-            preds.append((int(cls), TreePredictor(nodes, empty, empty)))
-        return preds
-
-    def _raw_accel(self, X):
-        X = np.ascontiguousarray(X, dtype=np.float64)
-        out = np.repeat(self.baseline[:, None], X.shape[0], axis=1)  # (outputs, rows): contiguous adds
-        known = np.zeros((0, 8), dtype=np.uint32)
-        fmap = np.zeros(0, dtype=np.uint32)
-        threads = os.cpu_count() or 1
-        for cls, p in self._accel:
-            out[cls] += p.predict(X, known, fmap, threads)
-        return out.T
-
-    def verify_accel(self, X_ref: np.ndarray, raw_ref: np.ndarray) -> bool:
-        """Enable the compiled path only if it reproduces the reference scores (1e-9)."""
-        if self._accel is None:
-            accel = self._build_accel()
-            if accel:
-                self._accel = accel
-                try:
-                    ok = np.allclose(self._raw_accel(X_ref), raw_ref, rtol=0, atol=1e-9)
-                except Exception:
-                    ok = False
-                if not ok:
-                    self._accel = False
-            else:
-                self._accel = False
-        return bool(self._accel)
-
     def raw(self, X: np.ndarray) -> np.ndarray:
-        """Raw scores (n, n_outputs), the fastest verified way."""
-        if self._accel and X.shape[0] >= ACCEL_MIN_ROWS:
-            return self._raw_accel(X)
+        """Raw scores (n, n_outputs)."""
         return self.raw_numpy(X)

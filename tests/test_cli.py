@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 from rich.console import Console
 
-import surrogate
-from cli import main
+import radialpn
+from radialpn.cli import main
 
 ASK = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "60nm", "--shell-thickness", "0.04um",
        "--core-doping", "1e18", "--shell-doping", "1e18cm-3", "--dit", "1e12"]
@@ -31,7 +31,7 @@ def test_ask_renders_answer_and_caution():
 def test_ask_json_matches_library():
     code, _, out = run(ASK + ["--json", "--statistics", "boltzmann", "--engine", "depletion"])
     row = json.loads(out)
-    lib = surrogate.deplete(dict(material="GaAs", core_type="p", core_radius_nm=60, shell_thickness_nm=40,
+    lib = radialpn.deplete(dict(material="GaAs", core_type="p", core_radius_nm=60, shell_thickness_nm=40,
                                  core_doping_cm3=1e18, shell_doping_cm3=1e18, dit_cm2eV=1e12), "boltzmann")
     assert code == 0 and row["engine"] == "depletion" and row["status"] == "ok"
     assert row["vbi_V"] == lib["vbi_V"][0] and row["regime"] == lib["regime"][0]
@@ -87,7 +87,7 @@ def test_batch_keeps_rows_order_and_input_columns(tmp_path):
     assert got[0]["status"] == "ok" and float(got[0]["vbi_V"]) > 1.3
     assert got[1]["status"].startswith("core_radius_nm: allowed range") and got[1]["vbi_V"] == ""
     assert got[2]["status"].startswith("surface accumulates")
-    assert got[3]["status"] == "ok" and got[3]["regime"] in surrogate.REGIMES
+    assert got[3]["status"] == "ok" and got[3]["regime"] in radialpn.REGIMES
     assert "4 rows" in text
 
 
@@ -124,7 +124,7 @@ def test_user_materials_flag(tmp_path):
 
 
 def test_ask_solver_engine_json_matches_library():
-    from training import solve
+    from radialpn.training import solve
 
     code, _, out = run(ASK + ["--engine", "solver", "--json"])
     row = json.loads(out)
@@ -173,7 +173,7 @@ def test_ask_defaults_to_surrogate_with_interval_and_verify():
     row = json.loads(out)
     assert code == 0 and row["engine"] == "surrogate" and row["in_domain"] is True
     assert row["vbi_low_V"] <= row["vbi_V"] <= row["vbi_high_V"] and 0 < row["regime_prob"] <= 1
-    assert row["verify"]["status"] == "ok" and row["verify"]["regime"] in surrogate.REGIMES
+    assert row["verify"]["status"] == "ok" and row["verify"]["regime"] in radialpn.REGIMES
     # the solver's answer lies within the bundle's stated accuracy (p99 error ~8 mV, card)
     assert abs(row["vbi_V"] - row["verify"]["vbi_V"]) < 0.02
 

@@ -11,8 +11,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from training import DatasetError, SpecError, build_dataset, load_dataset, read_rows, spec_from_dict
-from training._sampling import boundary_distance
+from radialpn.training import DatasetError, SpecError, build_dataset, load_dataset, read_rows, spec_from_dict
+from radialpn.training import boundary_distance
 
 BASE = {
     "bundle": {"name": "t", "material": "GaAs", "core_type": "p", "seed": 11},

@@ -6,15 +6,16 @@ import math
 import numpy as np
 import pytest
 
-import surrogate
-from surrogate import deplete, get_material
-from surrogate._constants import EPS0, K_B_EV, Q
-from surrogate._materials import Material
+import radialpn
+from radialpn import deplete, get_material
+from scipy.constants import Boltzmann, elementary_charge, elementary_charge as Q, epsilon_0 as EPS0
+
+from radialpn import Material
 
 import reference_depletion
 
 GAAS = get_material("GaAs")
-KT = K_B_EV * 300.0
+KT = Boltzmann * 300.0 / elementary_charge  # kT [eV] at 300 K, CODATA via scipy.constants
 
 
 def design(**kw):
@@ -44,7 +45,7 @@ def test_fermi_dirac_raises_vbi0_when_degenerate():
     # Degenerate n-side (N_D > N_c): the Fermi level enters the band, so FD gives a larger V_bi0
     # than Boltzmann; each side adds kT (F^-1(N/N_dos) - ln(N/N_dos)) (Sze & Ng, 3rd ed.,
     # eq. 1.16 against 1.23). Same inverse on both sides: agree to 1e-9 V.
-    from surrogate import fermi_half_inverse as inv
+    from radialpn import fermi_half_inverse as inv
     nd = 5e18
     gap = one("fermi-dirac", shell_doping_cm3=nd)["vbi0_V"] - one(shell_doping_cm3=nd)["vbi0_V"]
     yn, yp = nd / GAAS.nc(300), 1e18 / GAAS.nv(300)
@@ -70,7 +71,7 @@ def test_planar_widths_at_micrometre_radii():
 def test_full_depletion_radius_of_single_doped_wire():
     # A 1 nm core of negligible doping leaves an n-type wire of radius R. With the surface
     # pinned (huge D_it) its depletion reaches the axis at R_crit = sqrt(4 eps phi_s / (q N))
-    # (physics.md section 4; cylinder formula with r0 -> 0; Calarco et al., Nano Lett. 5, 981
+    # (docs/physics.md section 7; cylinder formula with r0 -> 0; Calarco et al., Nano Lett. 5, 981
     # (2005), from memory). Bisect on R for the regime change; the 1 nm core shifts it by < 1 %.
     nd = 1e17
     kw = dict(core_radius_nm=1.0, core_doping_cm3=1e12, shell_doping_cm3=nd, dit_cm2eV=1e16)
@@ -86,7 +87,7 @@ def test_full_depletion_radius_of_single_doped_wire():
 
 def test_core_depletion_by_surface_through_thin_shell():
     # p-core with a 1 nm, barely doped shell: the pinned surface acts on the core itself, which
-    # empties at a_crit = sqrt(4 eps phi / (q N_A)) with phi = E_cnl - (E_F - E_v) (physics.md
+    # empties at a_crit = sqrt(4 eps phi / (q N_A)) with phi = E_cnl - (E_F - E_v) (docs/physics.md section 7
     # section 4, same cylinder formula, p-type). The 1 nm shell moves it by ~1 nm: 3 % tolerance.
     na = 1e17
     kw = dict(core_doping_cm3=na, shell_doping_cm3=1e12, shell_thickness_nm=1.0, dit_cm2eV=1e16)
@@ -101,7 +102,7 @@ def test_core_depletion_by_surface_through_thin_shell():
 
 
 def test_dit_limits():
-    # D_it -> 0: flat bands at the surface (physics.md 4). D_it -> infinity: E_F pinned at the
+    # D_it -> 0: flat bands at the surface (docs/physics.md section 7). D_it -> infinity: E_F pinned at the
     # neutral level, so the bending equals E_g - (E_c - E_F) - E_cnl. Tolerances: D_it = 1e5
     # gives a bending of order q D_it phi / C_dep ~ 1e-9 V; D_it = 1e17 leaves E_F within
     # N_D W / D_it ~ 1e-4 eV of the neutral level.
@@ -145,7 +146,7 @@ def test_agrees_with_independent_scipy_solver():
         assert out["vbi_V"][i] == pytest.approx(vbi, abs=1e-6), d
         if min(abs(out["core_margin"][i]), abs(out["shell_margin"][i])) > 1e-3:
             assert out["regime"][i] == regime, d
-    assert seen == set(surrogate.REGIMES)  # the sample exercises every regime
+    assert seen == set(radialpn.REGIMES)  # the sample exercises every regime
 
 
 def _scan(param, values, **kw):
@@ -161,7 +162,7 @@ def _scan(param, values, **kw):
     ("core_radius_nm", 5.0, 200.0, dict(shell_thickness_nm=10.0, dit_cm2eV=1e13)),
 ])
 def test_vbi_continuous_across_regime_boundaries(core_type, param, lo, hi, kw):
-    # The depletion approximation's potential is continuous in the design (physics.md 4):
+    # The depletion approximation's potential is continuous in the design (docs/physics.md section 7):
     # bisect each regime change to 1e-11 relative and require V_bi on both sides to agree to
     # 1e-6 V (dV/dx ~ 1e-2 V/nm at most near a boundary).
     xs = np.geomspace(lo, hi, 400)
@@ -182,11 +183,11 @@ def test_vbi_continuous_across_regime_boundaries(core_type, param, lo, hi, kw):
 
 
 def test_n_core_equals_mirrored_p_core():
-    # physics.md section 1: an n-core design maps onto a p-core one by swapping N_c and N_v and
+    # docs/physics.md section 1: an n-core design maps onto a p-core one by swapping N_c and N_v and
     # measuring the neutral level from the other band edge. Same equations: agree to 1e-9.
     mirror = Material("GaAs-mirror", GAAS.band_gap_300_eV, GAAS.varshni_alpha_eV_K, GAAS.varshni_beta_K,
                       GAAS.permittivity_rel, GAAS.nv_300_cm3, GAAS.nc_300_cm3, GAAS.band_gap_300_eV - GAAS.cnl_eV)
-    surrogate.register_material(mirror)
+    radialpn.register_material(mirror)
     rng = np.random.default_rng(7)
     n = 200
     d = dict(core_radius_nm=10 ** rng.uniform(1, 2.5, n), shell_thickness_nm=10 ** rng.uniform(0.3, 2.5, n),
@@ -225,23 +226,9 @@ def test_trend_higher_doping_thinner_core():
 
 
 def test_accumulating_surface_is_reported_not_answered():
-    # physics.md section 4: InAs's neutral level lies in the conduction band, its surface
+    # docs/physics.md section 7: InAs's neutral level lies in the conduction band, its surface
     # accumulates electrons; the depletion model must say so instead of returning a number.
     out = deplete(dict(material="InAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30,
                        core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e12))
     assert out["status"][0].startswith("surface accumulates") and math.isnan(out["vbi_V"][0])
 
-
-def test_empty_subset_costs_no_iterations():
-    # Regression: with no coupled designs the coupled root loop used to run ROOT_MAXITER empty
-    # passes (4.8 ms per single query). The root finder must return at once on empty input.
-    from surrogate._roots import solve_bracketed
-
-    calls = []
-
-    def f(x, p):
-        calls.append(1)
-        return x - 0.5, np.ones_like(x)
-
-    x, it = solve_bracketed(f, {}, np.zeros(0), np.ones(0))
-    assert x.size == 0 and it.size == 0 and len(calls) == 0

@@ -6,7 +6,7 @@ import sys
 import numpy as np
 import pytest
 
-from surrogate import DesignError, check_design, normalize_designs, parse_quantity
+from radialpn import DesignError, check_design, normalize_designs, parse_quantity
 
 GOOD = dict(material="GaAs", core_type="p", core_radius_nm=60, shell_thickness_nm=40,
             core_doping_cm3=1e18, shell_doping_cm3=1e18, dit_cm2eV=1e12)
@@ -70,9 +70,9 @@ def test_inputs_as_rows_mapping_and_dataframe_agree():
         np.testing.assert_array_equal(a["core_radius_nm"], t["core_radius_nm"])
 
 
-def test_import_surrogate_is_light():
+def test_import_radialpn_is_light():
     # The runtime must not pull heavy modules at import (brief: numpy only).
-    code = ("import sys, surrogate; surrogate.deplete(dict(material='GaAs', core_type='p', core_radius_nm=50,"
+    code = ("import sys, radialpn; radialpn.deplete(dict(material='GaAs', core_type='p', core_radius_nm=50,"
             "shell_thickness_nm=30, core_doping_cm3=1e18, shell_doping_cm3=1e18, dit_cm2eV=1e12));"
             "print(' '.join(m for m in ('scipy','pandas','rich','sklearn','matplotlib') if m in sys.modules))")
     res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

@@ -5,7 +5,7 @@ import json
 import numpy as np
 import pytest
 
-from surrogate import MaterialError, get_material, load_material_file, material_names, register_material
+from radialpn import MaterialError, get_material, load_material_file, material_names, register_material
 
 
 def test_required_materials_present_with_sources():
@@ -18,7 +18,7 @@ def test_required_materials_present_with_sources():
 
 
 def test_gaas_room_temperature_values():
-    # physics.md section 6 and Sze & Ng, 3rd ed., App. G (from memory): E_g 1.424 eV,
+    # docs/physics.md section 2 and Sze & Ng, 3rd ed., App. G (from memory): E_g 1.424 eV,
     # eps_r 12.9, N_c 4.7e17, N_v 9.0e18. Exact: these are the table's anchors.
     m = get_material("GaAs")
     assert m.band_gap(300.0) == pytest.approx(1.424, abs=1e-12)

@@ -1,12 +1,22 @@
 """radialpn's heavy side: the reference Poisson solver, sampling, datasets and fitting.
-May use scipy, pandas, scikit-learn and joblib; never imported by ``surrogate``."""
+Importing it loads numpy alone; fitting needs the `train` extra (scipy, pandas, scikit-learn,
+joblib), imported where used. The runtime (``radialpn``) imports it only to run the solver."""
 
+from .._bundle import bundle_checksums, read_bundle, write_bundle
+from .._gp import GaussianProcess
+from .._trees import TreeEnsemble
 from ._dataset import DatasetError, build_dataset, load_dataset, plan, read_rows
+from ._export import export_gp, export_hgb
+from ._fit import conformal_quantile, fit_bundle, fit_temperature
 from ._profile import solver_profile
+from ._sampling import boundary_distance
 from ._solver import NODES, SOLVER_VERSION, solve
 from ._spec import DomainSpec, SpecError, load_spec, spec_from_dict
 from ._train import train_bundle, validate_bundle
+from ._validate import validate as validate_model
 
 __all__ = ["NODES", "SOLVER_VERSION", "DatasetError", "DomainSpec", "SpecError", "build_dataset",
            "load_dataset", "load_spec", "plan", "read_rows", "solve", "solver_profile", "spec_from_dict",
-           "train_bundle", "validate_bundle"]
+           "train_bundle", "validate_bundle", "validate_model", "fit_bundle", "conformal_quantile",
+           "fit_temperature", "export_gp", "export_hgb", "boundary_distance", "GaussianProcess", "TreeEnsemble",
+           "read_bundle", "write_bundle", "bundle_checksums"]

@@ -36,7 +36,7 @@ def render_card(meta: dict) -> str:
         "",
         "## Intended use",
         "Screening, maps, critical dimensions and growth-tolerance studies inside the domain below, at the "
-        "reactor or inside other pipelines (`import surrogate`, numpy only). Not for: designs outside the "
+        "reactor or inside other pipelines (`import radialpn`, numpy only). Not for: designs outside the "
         "domain (the model refuses them), other materials or statistics, device currents.",
         "",
         "## Domain",

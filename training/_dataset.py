@@ -26,7 +26,7 @@ from pathlib import Path
 
 import numpy as np
 
-from surrogate import INPUT_COLUMNS, OUTPUT_COLUMNS, RadialpnError, get_material
+from .. import INPUT_COLUMNS, OUTPUT_COLUMNS, RadialpnError, get_material
 
 from ._sampling import refinement_points, sobol_points, uniform_points
 from ._solver import SOLVER_VERSION, solve

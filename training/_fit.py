@@ -22,8 +22,8 @@ import warnings
 
 import numpy as np
 
-from surrogate import INPUT_COLUMNS, REGIMES, normalize_designs
-from surrogate._features import FEATURE_NAMES, FEATURES_VERSION, features
+from .. import INPUT_COLUMNS, REGIMES, normalize_designs
+from .._features import FEATURE_NAMES, FEATURES_VERSION, features
 
 from ._dataset import load_dataset
 from ._export import export_gp, export_hgb
@@ -135,7 +135,7 @@ def fit_bundle(spec, data_dir, log=print, seed: int = 0, gp_points=(GP_FIT_POINT
     gp = export_gp(gpr, Z[base[:gp_mean]], res[base[:gp_mean]], Z[base[:gp_std]])
     arrays.update({f"gp/{k}": v for k, v in gp.items()})
     arrays["gp/x_mean"], arrays["gp/x_scale"] = mu, sd
-    from surrogate._gp import GaussianProcess
+    from .._gp import GaussianProcess
 
     gm, gs = GaussianProcess(gp).predict((Xc - mu) / sd)
     q_gp = conformal_quantile(np.abs(resc - gm) / gs)

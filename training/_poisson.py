@@ -2,7 +2,7 @@
 cylinder (n-core designs are solved as their mirror image), batched over designs.
 
 Unknown y(r) = E_F - E_v(r) [eV]; with E_F = 0 it equals the electrostatic potential up to a
-constant. Poisson in a cylinder (physics.md section 5):
+constant. Poisson in a cylinder (docs/physics.md section 8):
 
     (1/r) d/dr (eps r dy/dr) = -q (p - n + N_net),   p = N_v F(-y/kT),  n = N_c F((y - E_g)/kT)
 
@@ -20,8 +20,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from surrogate._constants import Q
-from surrogate._statistics import occupancy
+from .._constants import Q
+from .._statistics import occupancy
 
 from ._tridiag import solve_tridiagonal
 

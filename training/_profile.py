@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from surrogate._constants import NM
-from surrogate._design import REGIMES, check_design
-from surrogate._errors import RadialpnError
-from surrogate._statistics import check_statistics
+from .._constants import NM
+from .._design import REGIMES, check_design
+from .._errors import RadialpnError
+from .._statistics import check_statistics
 
 from ._solver import NODES, _chunk, _physics
 

@@ -1,5 +1,5 @@
 """Reference solver API: ``solve(designs)`` answers design-table rows with the full nonlinear
-Poisson solution (``_poisson``), batched and optionally spread over processes with joblib.
+Poisson solution (``_poisson``), batched and optionally spread over threads; numpy only.
 
 Regime criterion (documented in README and DEVELOPERS.md): a region keeps a neutral part when
 its majority-carrier density reaches at least half its doping somewhere in it. Margins:
@@ -11,17 +11,20 @@ a neutral part, zero on the boundary.
 
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 
-from surrogate._constants import NM, Q
-from surrogate._depletion import _prepare, _row_status, _outputs, material_arrays, solve_pcore
-from surrogate._design import REGIMES, DesignTable, normalize_designs
-from surrogate._profiles import fermi_minus_ev
-from surrogate._roots import solve_bracketed
-from surrogate._statistics import check_statistics, occupancy
+from .._constants import NM, Q
+from .._depletion import prepare, row_status, outputs, material_arrays, solve_pcore
+from .._design import REGIMES, DesignTable, normalize_designs
+from .._profiles import fermi_minus_ev
+from .._roots import solve_bracketed
+from .._statistics import check_statistics, occupancy
 
 from ._grid import graded_grid
-from ._poisson import carriers, control_volumes, newton, residual
+from ._poisson import MAX_ITER, carriers, control_volumes, newton, residual
 
 SOLVER_VERSION = "1.0"  #: recorded in every training row; bump when results can change
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
@@ -50,7 +53,7 @@ def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics):
 
 def _physics(table: DesignTable, statistics: str):
     """Per-design arrays of the mirrored p-core problem, plus the depletion start."""
-    prob, cnl = _prepare(table, statistics)
+    prob, cnl = prepare(table, statistics)
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
     pc = table.p_core
@@ -61,15 +64,15 @@ def _physics(table: DesignTable, statistics: str):
     il = np.where(ok, v["interlayer_nm"], 0.0) * NM
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
-        da_out = _outputs(sol, **prob)
-    da_ok = (_row_status(table, prob, sol, da_out, cnl) == "ok") & (il == 0)
+        da_out = outputs(sol, **prob)
+    da_ok = (row_status(table, prob, sol, da_out, cnl) == "ok") & (il == 0)
     y_core = _neutral_level(prob["NA"], nv, nc, prob["Eg"], kt, statistics)
     y_shell = prob["Eg"] - _neutral_level(prob["ND"], nc, nv, prob["Eg"], kt, statistics)
     return dict(prob=prob, sol=sol, da_ok=da_ok, kT=kt, Nv=nv, Nc=nc, b=prob["a"] + il,
                 y_core=y_core, y_shell=y_shell)
 
 
-def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False) -> dict:
+def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, max_iter: int = MAX_ITER) -> dict:
     """Solve the designs ``sel`` of the prepared physics ``ph``; returns output arrays (and
     the grids ``r`` [m], solutions ``y`` [eV] and carrier densities if ``profiles``)."""
     pr = {k: v[sel] for k, v in ph["prob"].items()}
@@ -95,9 +98,9 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False) -
     p = dict(eps=eps, face=face, vol=vol, core=core, shell=shell, NA=pr["NA"], ND=pr["ND"], R=R, Dit=pr["Dit"],
              Ecnl=pr["Ecnl"], kT=kt, Eg=pr["Eg"], Nv=ph["Nv"][sel], Nc=ph["Nc"][sel])
     with np.errstate(all="ignore"):
-        y, iters, conv, last = newton(y0, p, statistics)
+        y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter)
         out = analyse(y, r, p, a, b, statistics)
-    # interface.md: bending from the shell's neutral level where it keeps one (negative when
+    # docs/design-table.md: bending from the shell's neutral level where it keeps one (negative when
     # the surface accumulates), else from the shell's potential extremum
     out["surface_bending_V"] = np.where(out["shell_majority_ln"] >= 0, ys - y[-1], out["surface_bending_V"])
     out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc)
@@ -171,47 +174,30 @@ def analyse(y, r, p, a, b, statistics):
 
 
 def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: int = BATCH,
-          n_jobs: int = 1, backend: str | None = None) -> dict:
+          n_jobs: int = 1, max_iter: int = MAX_ITER) -> dict:
     """Regime and built-in potential of each design by the reference solver.
 
-    ``designs``: as for ``surrogate.deplete``. ``statistics``: ``"fermi-dirac"`` or
-    ``"boltzmann"``. ``nodes``: grid nodes per design. ``n_jobs``: joblib workers (-1: all
-    cores); ``backend``: joblib backend name (``"loky"`` by default, ``"dask"`` inside a
-    ``joblib.parallel_config(backend="dask")`` block). Returns the output columns of
-    interface.md plus ``core_majority_ln``, ``shell_majority_ln`` (see module docstring), ``charge_residual`` (|bulk + surface
-    charge| over the total dopant charge), ``iterations`` and ``solver_version``. A design
-    that does not converge carries the reason in ``status`` and no numbers.
+    ``designs``: as for ``radialpn.deplete``. ``statistics``: ``"fermi-dirac"`` or
+    ``"boltzmann"``. ``nodes``: grid nodes per design. ``n_jobs``: worker threads over batches
+    of ``batch`` designs (-1: one per core; numpy releases the interpreter lock in the array
+    work, and results do not depend on the thread count). Returns the output columns of the
+    design table plus ``core_majority_ln``, ``shell_majority_ln`` (see module docstring),
+    ``charge_residual`` (|bulk + surface charge| over the total dopant charge), ``iterations``
+    and ``solver_version``. A design that does not converge carries the reason in ``status``
+    and no numbers. ``max_iter``: Newton steps before a design is declared not converged.
     """
     statistics = check_statistics(statistics)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     ph = _physics(table, statistics)
     rows = np.flatnonzero(table.ok)
     parts = [rows[i:i + batch] for i in range(0, rows.size, batch)]
-    if n_jobs == 1 or len(parts) <= 1:
-        results = [_chunk(ph, s, statistics, nodes) for s in parts]
+    workers = (os.cpu_count() or 1) if n_jobs == -1 else max(1, int(n_jobs))
+    if workers == 1 or len(parts) <= 1:
+        results = [_chunk(ph, s, statistics, nodes, max_iter=max_iter) for s in parts]
     else:
-        from joblib import Parallel, delayed
-
-        results = Parallel(n_jobs=n_jobs, backend=backend)(
-            delayed(_solve_part)({k: (v[s] if np.ndim(v) else v) for k, v in _flat(ph).items()}, statistics, nodes)
-            for s in parts)
+        with ThreadPoolExecutor(min(workers, len(parts))) as pool:
+            results = list(pool.map(lambda s: _chunk(ph, s, statistics, nodes, max_iter=max_iter), parts))
     return _assemble(table, rows, parts, results)
-
-
-def _flat(ph):
-    """Physics dict flattened to one level of per-design arrays (for shipping to workers)."""
-    out = {f"prob.{k}": v for k, v in ph["prob"].items()}
-    out.update({f"sol.{k}": v for k, v in ph["sol"].items() if k not in ("iterations", "mean_iterations")})
-    out.update({k: v for k, v in ph.items() if k not in ("prob", "sol")})
-    return out
-
-
-def _solve_part(flat: dict, statistics: str, nodes: int) -> dict:
-    ph = {"prob": {k[5:]: v for k, v in flat.items() if k.startswith("prob.")},
-          "sol": {k[4:]: v for k, v in flat.items() if k.startswith("sol.")}}
-    ph.update({k: v for k, v in flat.items() if "." not in k})
-    n = ph["kT"].shape[0]
-    return _chunk(ph, np.arange(n), statistics, nodes)
 
 
 def _assemble(table, rows, parts, results) -> dict:

@@ -33,9 +33,9 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from surrogate import INPUT_COLUMNS, NUMERIC_COLUMNS, RadialpnError, get_material
-from surrogate._statistics import STATISTICS
-from surrogate._textfile import read_table_file
+from .. import INPUT_COLUMNS, NUMERIC_COLUMNS, RadialpnError, get_material
+from .._statistics import STATISTICS
+from .._textfile import read_table_file
 
 
 class SpecError(RadialpnError, ValueError):

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from surrogate._bundle import read_bundle, write_bundle
-from surrogate._model import SurrogateModel, load_bundle
+from .._bundle import read_bundle, write_bundle
+from .._model import SurrogateModel, load_bundle
 
 from ._card import render_card
 from ._dataset import build_dataset
@@ -13,6 +13,19 @@ from ._fit import fit_bundle
 from ._solver import SOLVER_VERSION
 from ._spec import load_spec
 from ._validate import validate
+
+
+def library_versions() -> dict:
+    """Versions of the libraries that fit a bundle (recorded in bundle.json as ``fitted_with``)."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    out = {}
+    for name in ("radialpn", "numpy", "scipy", "scikit-learn", "pandas"):
+        try:
+            out[name] = version(name)
+        except PackageNotFoundError:
+            out[name] = "not installed"
+    return out
 
 
 def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, validate_seed=777,
@@ -25,7 +38,7 @@ def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, va
         name=spec.name, material=spec.material, core_type=spec.core_type, statistics=spec.statistics,
         domain={v.name: [v.lo, v.hi] for v in spec.variables},
         transforms={v.name: v.transform for v in spec.variables}, fixed=dict(spec.fixed),
-        solver_version=SOLVER_VERSION, spec_sha256=spec.digest(),
+        solver_version=SOLVER_VERSION, spec_sha256=spec.digest(), fitted_with=library_versions(),
     )
     write_bundle(out_dir, meta, arrays, render_card(meta))
     report = validate(load_bundle(out_dir), validate_rows, validate_seed, n_jobs=n_jobs)

@@ -7,8 +7,8 @@ import time
 
 import numpy as np
 
-from surrogate import REGIMES
-from surrogate._model import SurrogateModel
+from .. import REGIMES
+from .._model import SurrogateModel
 
 from ._solver import SOLVER_VERSION, solve
 
