@@ -72,6 +72,12 @@ def main(argv=None, console=None, out=None, stdin=None) -> int:
     except KeyboardInterrupt:
         err_console.print("radialpn: interrupted", markup=False)
         return _errors.INTERRUPTED
+    except BrokenPipeError:  # the reader left (`| head`): stop quietly, as command-line tools do
+        try:
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass
+        return _errors.OK
     except Exception as exc:  # a bug: one line, traceback only on request
         if os.environ.get("RADIALPN_DEBUG"):
             raise

@@ -7,7 +7,6 @@ import csv
 import json
 import math
 import os
-import tempfile
 
 import numpy as np
 from rich.panel import Panel
@@ -17,6 +16,7 @@ import radialpn
 from radialpn import INPUT_COLUMNS, normalize_designs
 
 from . import _errors
+from ._csvio import atomic_text, read_table
 from ._designargs import add_design_flags, design_from_args, engine_flags, flag_hint, progress_bar
 from ._render import CAUTION, answer_table, design_line, verify_line
 
@@ -38,6 +38,8 @@ def register(sub) -> None:
     batch.add_argument("input", metavar="IN.csv", help="CSV with design-table columns (extra columns kept)")
     batch.add_argument("-o", "--output", metavar="OUT.csv", help="where to write (default: standard output)")
     engine_flags(batch)
+    batch.add_argument("--keep-going", action="store_true",
+                       help="exit 0 even when some rows have no answer (their reason is in status)")
     batch.add_argument("--second-opinion", action="store_true",
                        help="surrogate engine: add the Gaussian-process columns and flag disagreements (slower)")
     batch.set_defaults(handler=cmd_batch)
@@ -116,51 +118,39 @@ def cmd_ask(args, console, out) -> int:
 
 
 def cmd_batch(args, console, out) -> int:
+    reserved = radialpn.OUTPUT_COLUMNS + EXTRA_OUTPUTS
     big = os.path.exists(args.input) and os.path.getsize(args.input) > 20_000_000  # ~ a second to parse
-    try:
-        with open(args.input, newline="", encoding="utf-8-sig") as fh, \
-                (console.status(f"reading {args.input}") if big else contextlib.nullcontext()):
-            reader = csv.DictReader(fh)
-            rows = list(reader)
-            fields = list(reader.fieldnames or [])
-    except OSError as exc:
-        raise _errors.UsageError(f"{args.input}: cannot read ({exc.strerror})") from None
-    except csv.Error as exc:
-        raise _errors.UsageError(f"{args.input}: not a readable CSV file ({exc})") from None
-    if not fields:
-        raise _errors.UsageError(f"{args.input}: empty file (expected a header row with design-table columns)")
-    missing = [c for c in ("material", "core_type", "core_radius_nm") if c not in fields]
-    if len(missing) == 3:
+    with console.status(f"reading {args.input}") if big else contextlib.nullcontext():
+        fields, rows = read_table(args.input, reserved)
+    if not set(fields) & {"material", "core_type", "core_radius_nm"}:
         raise _errors.UsageError(f"{args.input}: no design-table columns in the header (expected e.g. "
-                                 f"{', '.join(INPUT_COLUMNS[:4])})")
-    designs = {c: [r.get(c) for r in rows] for c in INPUT_COLUMNS if c in fields}
-    table = normalize_designs(designs) if rows else None
-    result = answer_with_progress(table, args.engine, args.statistics, console,
-                                  second_opinion=args.second_opinion) if rows else {}
-    out_cols = [c for c in radialpn.OUTPUT_COLUMNS + EXTRA_OUTPUTS if c in result or (not rows and c in radialpn.OUTPUT_COLUMNS)]
-    header = fields + [c for c in out_cols if c not in fields]
-    target = args.output
-    writing = console.status(f"writing {len(rows):,} rows") if len(rows) > 200_000 else contextlib.nullcontext()
-    if target in (None, "-"):
-        with writing:
-            _write_csv(out, header, rows, result, out_cols)
-    else:
-        d = os.path.dirname(os.path.abspath(target))
-        fd, tmp = tempfile.mkstemp(prefix=".radialpn-", suffix=".csv", dir=d)
-        try:
-            with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh, writing:
-                _write_csv(fh, header, rows, result, out_cols)
-            os.replace(tmp, target)  # never leave a half-written output
-        except BaseException:
-            os.unlink(tmp)
-            raise
+                                 f"{', '.join(INPUT_COLUMNS[:4])}; got {', '.join(fields[:4]) or 'nothing'})")
+    index = {c: k for k, c in enumerate(fields)}
+    designs = {c: [r[index[c]] for r in rows] for c in INPUT_COLUMNS if c in index}
     if rows:
-        status = result["status"]
-        good = int((status == "ok").sum())
-        counts = {r: int((result["regime"] == r).sum()) for r in radialpn.REGIMES}
-        summary = ", ".join(f"{n} {r}" for r, n in counts.items() if n)
-        console.print(f"[dim]{len(rows)} rows · {good} answered ({summary}) · {len(rows) - good} with a reason "
-                      f"in status · engine {args.engine}[/]")
+        result = answer_with_progress(normalize_designs(designs), args.engine, args.statistics, console,
+                                      second_opinion=args.second_opinion)
+    else:  # a header alone: the answer is the header with its output columns
+        result = {c: np.zeros(0, dtype=object) for c in radialpn.OUTPUT_COLUMNS}
+    out_cols = [c for c in reserved if c in result]
+    header = fields + out_cols
+    writing = console.status(f"writing {len(rows):,} rows") if len(rows) > 200_000 else contextlib.nullcontext()
+    with writing:
+        if args.output in (None, "-"):
+            _write_csv(out, header, rows, result, out_cols)
+        else:
+            with atomic_text(args.output, "-o") as fh:
+                _write_csv(fh, header, rows, result, out_cols)
+    status = result["status"]
+    good = int((status == "ok").sum())
+    counts = {r: int((result["regime"] == r).sum()) for r in radialpn.REGIMES}
+    summary = ", ".join(f"{n} {r}" for r, n in counts.items() if n) or "none"
+    console.print(f"[dim]{len(rows)} rows · {good} answered ({summary}) · {len(rows) - good} with a reason "
+                  f"in status · engine {args.engine}[/]")
+    if good < len(rows):
+        first = int(np.flatnonzero(status != "ok")[0])
+        console.print(f"[dim]first row without an answer: line {first + 2}: {status[first]}[/]")
+        return _errors.OK if args.keep_going else _errors.NO_ANSWER
     return _errors.OK
 
 
@@ -183,9 +173,9 @@ def _write_csv(fh, header, rows, result, out_cols):
     # RFC 4180 line ends: csv then quotes any field holding \r or \n (user text passes through)
     w = csv.writer(fh, lineterminator="\r\n")
     w.writerow(header)
-    outs = {c: _column_text(result[c]) for c in out_cols}
+    outs = [_column_text(result[c]) for c in out_cols]
     for i, r in enumerate(rows):
-        w.writerow([outs[c][i] if c in outs else r.get(c, "") for c in header])
+        w.writerow(r + [o[i] for o in outs])
 
 
 def cmd_materials(args, console, out) -> int:

@@ -73,19 +73,31 @@ def target_from_args(args) -> dict:
 
 def progress_bar(console, label: str):
     """A (context manager, callback) pair: a transient rich progress bar driven by the design
-    API's ``progress(done, total)`` calls."""
+    API's ``progress(done, total)`` calls. Nothing is drawn (not even a blank line) unless the
+    API reports progress, which it does only on runs expected to take over a second."""
+    import contextlib
     import time
 
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    bar = Progress(TextColumn("[#5b8def]{task.description}"), BarColumn(), MofNCompleteColumn(),
-                   TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), console=console, transient=True)
     state = {}
 
     def update(done, total):
-        if "task" not in state:
-            state["task"], state["t0"] = bar.add_task(label, total=total, rate=""), time.perf_counter()
+        if "bar" not in state:
+            state["bar"] = Progress(TextColumn("[#5b8def]{task.description}"), BarColumn(), MofNCompleteColumn(),
+                                    TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), console=console,
+                                    transient=True)
+            state["bar"].start()
+            state["task"], state["t0"] = state["bar"].add_task(label, total=total, rate=""), time.perf_counter()
         rate = done / max(time.perf_counter() - state["t0"], 1e-9)
-        bar.update(state["task"], completed=done, total=total, rate=f"{rate:,.0f}/s")
+        state["bar"].update(state["task"], completed=done, total=total, rate=f"{rate:,.0f}/s")
 
-    return bar, update
+    @contextlib.contextmanager
+    def shown():
+        try:
+            yield
+        finally:
+            if "bar" in state:
+                state["bar"].stop()
+
+    return shown(), update

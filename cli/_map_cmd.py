@@ -12,6 +12,7 @@ from rich.text import Text
 import radialpn
 
 from . import _errors, _png
+from ._csvio import atomic_text
 from ._axes import UNITS, axis_spec, fmt_value
 from ._designargs import add_design_flags, design_from_args, engine_flags, progress_bar
 from ._render import CAUTION, REGIME_STYLE
@@ -132,14 +133,11 @@ def _write_csv(path, designs, res):
     cols = {k: np.broadcast_to(np.asarray(v, dtype=object if isinstance(v, str) else None), (n,))
             for k, v in designs.items()}
     keys = list(cols) + [k for k in res if k not in cols]
-    try:
-        with open(path, "w", newline="", encoding="utf-8") as fh:
-            w = csv.writer(fh, lineterminator="\r\n")  # RFC 4180
-            w.writerow(keys)
-            for i in range(n):
-                w.writerow([_cell(cols[k][i] if k in cols else res[k][i]) for k in keys])
-    except OSError as exc:
-        raise _errors.UsageError(f"--csv {path}: cannot write ({exc.strerror})") from None
+    with atomic_text(path, "--csv") as fh:
+        w = csv.writer(fh, lineterminator="\r\n")  # RFC 4180
+        w.writerow(keys)
+        for i in range(n):
+            w.writerow([_cell(cols[k][i] if k in cols else res[k][i]) for k in keys])
 
 
 def _cell(x):

@@ -46,29 +46,53 @@ NUMERIC = {
 UNITS = {
     "length": {"": 1.0, "nm": 1.0, "um": 1e3, "µm": 1e3, "μm": 1e3, "micron": 1e3, "mm": 1e6, "a": 0.1, "å": 0.1},
     "density": {"": 1.0, "cm-3": 1.0, "cm3": 1.0, "percm3": 1.0, "m-3": 1e-6},
-    "dit": {"": 1.0, "cm-2ev-1": 1.0, "cm2ev": 1.0, "cm-2": 1.0, "percm2ev": 1.0},
+    "dit": {"": 1.0, "cm-2ev-1": 1.0, "cm2ev": 1.0, "percm2ev": 1.0},
     "energy": {"": 1.0, "ev": 1.0, "mev": 1e-3, "v": 1.0},
     "temperature": {"": 1.0, "k": 1.0},
 }
-_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+#: a number: ASCII decimal or exponent form (no NaN, no infinity, no digit separators)
+_NUM = r"[-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
+_NUMBER = re.compile(rf"[ \t]*({_NUM})[ \t]*(.*?)[ \t]*", re.ASCII | re.DOTALL)
+_PLAIN_COLUMN = re.compile(rf"(?:[ \t]*{_NUM}[ \t]*\n)*", re.ASCII)  #: a whole column of plain numbers, one per line
+_SUPERSCRIPTS = str.maketrans("⁻⁺¹²³", "-+123")  # the unit forms radialpn prints itself, e.g. cm⁻³
+_MISSING_TEXT = ("", "nan", "none", "<na>", "null")
 
 
 def parse_quantity(column: str, value) -> float:
     """Parse one value of a numeric column, with an optional unit suffix (``60nm``,
     ``0.06um``, ``1e18cm-3``, ``500meV``, ``300K``). Returns the value in the column's unit.
-    Raises ``DesignError`` naming the column and the accepted units."""
+    A number is an ASCII decimal or exponent form; NaN, infinities, digit separators, true/false
+    and empty values are refused. Raises ``DesignError`` naming the column and the accepted
+    form and units."""
+    if column not in NUMERIC:
+        raise DesignError(column, f"not a numeric design column ({', '.join(NUMERIC)})")
     lo, hi, default, kind = NUMERIC[column]
-    if isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, bool):
-        return float(value)
-    text = str(value).strip()
-    m = _NUMBER.match(text)
+    if isinstance(value, (bool, np.bool_)):
+        raise DesignError(column, "expected a number, not true/false", value)
+    if isinstance(value, (int, float, np.integer, np.floating)):
+        x = float(value)
+        if not math.isfinite(x):
+            raise DesignError(column, "expected a finite number", value)
+        return x
+    if not isinstance(value, str):
+        raise DesignError(column, f"expected a number with optional unit ({_unit_list(kind)})",
+                          type(value).__name__)
+    m = _NUMBER.fullmatch(value.strip())
     if not m:
-        raise DesignError(column, f"expected a number with optional unit ({_unit_list(kind)})", value)
-    unit = m.group(2).lower().replace(" ", "").replace("^", "").replace("/", "per").replace("·", "")
+        if value.strip().lower() in _MISSING_TEXT:
+            raise DesignError(column, f"empty or missing value; give a number (allowed range [{lo:g}, {hi:g}]) or "
+                                      "leave the column out for its default", value)
+        raise DesignError(column, f"expected a number (ASCII digits, e.g. 1e18) with optional unit "
+                                  f"({_unit_list(kind)})", value)
+    unit = m.group(2).translate(_SUPERSCRIPTS).lower().replace(" ", "").replace("^", "").replace("/", "per")
+    unit = unit.replace("·", "")
     unit = unit.replace("per", "") if unit.startswith("per") and unit[3:] in UNITS[kind] else unit
     if unit not in UNITS[kind]:
         raise DesignError(column, f"unknown unit {m.group(2)!r}; use {_unit_list(kind)}", value)
-    return float(m.group(1)) * UNITS[kind][unit]
+    x = float(m.group(1)) * UNITS[kind][unit]
+    if not math.isfinite(x):
+        raise DesignError(column, "expected a finite number", value)
+    return x
 
 
 def _unit_list(kind: str) -> str:
@@ -103,13 +127,20 @@ class DesignTable:
 def _as_columns(designs):
     """(columns, row count or None): accept a mapping of column -> array/scalar, a list of row
     dicts, or a DataFrame. The row count is known for rows and frames even without columns."""
+    form = "expected a mapping of column -> values, a list of row dicts or a DataFrame"
     if hasattr(designs, "to_dict") and hasattr(designs, "columns"):  # pandas DataFrame
-        return {str(c): designs[c].to_numpy() for c in designs.columns}, len(designs)
+        names = [str(c) for c in designs.columns]
+        if len(set(names)) != len(names):
+            raise DesignError("designs", "each column once (the DataFrame repeats a column name)")
+        return {str(c): designs[c].to_numpy(dtype=object) if designs[c].dtype == object else designs[c].to_numpy()
+                for c in designs.columns}, len(designs)
     if isinstance(designs, dict):
         return dict(designs), None
+    if not isinstance(designs, (list, tuple)):
+        raise DesignError("designs", form, type(designs).__name__)
     rows = list(designs)
     if rows and not all(isinstance(r, dict) for r in rows):
-        raise DesignError("designs", "expected a mapping of column -> values, a list of row dicts or a DataFrame")
+        raise DesignError("designs", form, "a list of " + type(next(r for r in rows if not isinstance(r, dict))).__name__)
     keys = {k for r in rows for k in r}
     return {k: [r.get(k) for r in rows] for k in keys}, len(rows)
 
@@ -141,8 +172,12 @@ class _Status:
 def categories(raw, n):
     """Map a categorical column to (unique values, inverse index) cheaply when it is uniform."""
     if np.ndim(raw) == 0:
-        return [raw], np.zeros(n, dtype=np.intp)
+        v = raw.item() if isinstance(raw, np.ndarray) else raw
+        return ["" if type(v).__name__ == "NAType" else v], np.zeros(n, dtype=np.intp)
     arr = np.asarray(raw)
+    if arr.dtype == object:  # compare as text: None, NaN and pandas' NA do not compare equal to themselves
+        arr = np.array([v if isinstance(v, str) else repr(v) if isinstance(v, float) else str(v)
+                        for v in arr.tolist()], dtype=object)
     inv = np.full(n, -1, dtype=np.intp)
     uniq = []
     rest = np.arange(n)
@@ -175,6 +210,21 @@ def normalize_designs(designs) -> DesignTable:
     """Validate designs row by row (see module docstring). Never raises for a bad row; raises
     ``DesignError`` only when the whole input is unusable (ragged columns, wrong container)."""
     cols, rows = _as_columns(designs)
+    for k in list(cols):
+        if k not in INPUT_COLUMNS:
+            continue  # extra columns travel with the caller's rows; they are not read
+        v = cols[k]
+        try:
+            a = v if isinstance(v, np.ndarray) else np.asarray(v, dtype=object if isinstance(v, (list, tuple, str)) else None)
+        except (ValueError, TypeError):
+            raise DesignError(k, "expected one value, or one value per row (a flat list or 1-D array)", "ragged") from None
+        if a.ndim > 1:
+            raise DesignError(k, "expected one value, or one value per row (a flat list or 1-D array)",
+                              f"an array of shape {a.shape}")
+        if a.dtype == object and a.ndim == 1 and any(isinstance(x, (list, tuple, dict, np.ndarray)) for x in a.tolist()):
+            raise DesignError(k, "expected one value per row, not nested lists", "nested")
+        cols[k] = a
+    cols = {k: v for k, v in cols.items() if k in INPUT_COLUMNS}
     lengths = {k: np.size(v) for k, v in cols.items() if np.ndim(v) > 0}
     n = rows if rows is not None else max(lengths.values(), default=1)
     if any(m != n for m in lengths.values()):
@@ -185,7 +235,7 @@ def normalize_designs(designs) -> DesignTable:
     # material
     material = np.full(n, "", dtype=object)
     for name, sel in _each_category(cols, "material", n, st, "material: required (e.g. GaAs)"):
-        if _blank(name) or str(name) == "None":
+        if _blank(name) or str(name).strip().lower() in _MISSING_TEXT:
             st.fail(sel, "material: required (e.g. GaAs)")
             continue
         try:
@@ -210,32 +260,28 @@ def normalize_designs(designs) -> DesignTable:
             values[name] = np.full(n, np.nan if default is None else default)
             continue
         arr = np.asarray(raw)
-        if arr.dtype.kind in "UO" and arr.ndim:  # text: plain numbers convert in one vectorised step
-            try:
-                arr = arr.astype(str).astype(float)
-            except ValueError:  # units, blanks or junk somewhere: parse value by value below
-                pass
-        if arr.dtype.kind in "fiub":
+        if arr.dtype.kind in "UO" and arr.ndim:  # text: a column of plain numbers converts in one step
+            text = arr.astype(str)
+            if _PLAIN_COLUMN.fullmatch("\n".join(text.tolist()) + "\n"):
+                arr = text.astype(float)
+        if arr.dtype.kind == "b":
+            st.fail(every, f"{name}: expected a number, not true/false (got {bool(arr.flat[0]) if arr.size else ''})")
+            x = np.full(n, np.nan)
+        elif arr.dtype.kind in "fiu":
             x = np.broadcast_to(arr.astype(float), (n,))
-            blank = np.isnan(x)
+            bad = ~np.isfinite(x)
+            if bad.any():
+                st.fail(bad, np.array([f"{name}: expected a finite number (got {v})" for v in x], dtype=object))
         else:
             uniq, inv = categories(raw, n)
             parsed = np.full(len(uniq), np.nan)
-            blank_u = np.zeros(len(uniq), dtype=bool)
             for k, v in enumerate(uniq):
-                if _blank(v):
-                    blank_u[k] = True
-                    continue
                 try:
-                    parsed[k] = parse_quantity(name, v)
+                    parsed[k] = parse_quantity(name, "" if v is None else v)
                 except DesignError as exc:
                     st.fail(inv == k, str(exc))
-            x, blank = parsed[inv], blank_u[inv]
-        if default is None:
-            if blank.any():
-                st.fail(blank, f"{name}: required, allowed range [{lo:g}, {hi:g}]")
-        elif blank.any():
-            x = np.where(blank, default, x)
+            x = parsed[inv]
+        blank = np.zeros(n, dtype=bool)
         if default is not None and math.isnan(default):  # NaN means "the material's own"
             blank = blank | np.isnan(x)
         out = ~((x >= lo) & (x <= hi)) & ~blank

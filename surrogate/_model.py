@@ -159,9 +159,13 @@ def load_bundle(path) -> SurrogateModel:
 
 def load(material: str = "GaAs", core_type: str = "p") -> SurrogateModel:
     """The installed bundle for a material and core type (cached after the first load)."""
+    from ._errors import DesignError
     from ._materials import get_material
 
-    key = (get_material(material).name, str(core_type).lower()[:1])
+    ct = str(core_type).strip().lower().removesuffix("-core")
+    if ct not in ("p", "n"):
+        raise DesignError("core_type", "p or n", core_type)
+    key = (get_material(material).name, ct)
     if key not in _cache:
         for name, path in find_bundles().items():
             meta, arrays = read_bundle(path)

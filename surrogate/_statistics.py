@@ -175,10 +175,12 @@ STATISTICS = ("fermi-dirac", "boltzmann")
 
 
 def check_statistics(statistics: str) -> str:
-    """Return the canonical statistics name or raise ``ValueError`` naming the choices."""
+    """Return the canonical statistics name or raise ``DesignError`` naming the choices."""
+    from ._errors import DesignError
+
     s = str(statistics).strip().lower()
     if s not in STATISTICS:
-        raise ValueError(f"statistics: must be one of {', '.join(STATISTICS)} (got {statistics!r})")
+        raise DesignError("statistics", f"one of {', '.join(STATISTICS)}", statistics)
     return s
 
 

@@ -79,7 +79,7 @@ def test_batch_keeps_rows_order_and_input_columns(tmp_path):
         w.writerows(rows)
     dst = tmp_path / "out.csv"
     code, text, _ = run(["batch", str(src), "-o", str(dst), "--engine", "depletion", "--statistics", "boltzmann"])
-    assert code == 0
+    assert code == 3  # every row written; B and C have no answer, so exit 3 without --keep-going
     got = list(csv.DictReader(open(dst)))
     assert [g["label"] for g in got] == ["A", "B", "C", "D"]
     for g, r in zip(got, rows):
@@ -156,7 +156,7 @@ def test_batch_solver_engine(tmp_path):
     src = tmp_path / "in.csv"
     src.write_text("material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
                    "GaAs,p,60,40,1e18,1e18,1e12\nGaAs,n,5nm,1,1e20,1e15,1e15\nGaAs,p,oops,40,1e18,1e18,1e12\n")
-    code, _, out = run(["batch", str(src), "--engine", "solver"])
+    code, _, out = run(["batch", str(src), "--engine", "solver", "--keep-going"])
     got = list(csv.DictReader(io.StringIO(out)))
     assert code == 0 and len(got) == 3
     assert got[0]["engine"] == "solver" and got[0]["status"] == "ok" and got[1]["status"] == "ok"
@@ -190,7 +190,7 @@ def test_batch_surrogate_second_opinion(tmp_path):
     src.write_text("name,material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
                    "a,GaAs,p,60,40,1e18,1e18,1e12\nb,GaAs,n,45,30,5e17,2e18,5e12\nc,GaAs,p,900,40,1e18,1e18,1e12\n"
                    "d,Si,p,60,40,1e18,1e18,1e12\n")
-    code, _, out = run(["batch", str(src), "--second-opinion"])
+    code, _, out = run(["batch", str(src), "--second-opinion", "--keep-going"])
     got = list(csv.DictReader(io.StringIO(out)))
     assert code == 0 and [g["name"] for g in got] == ["a", "b", "c", "d"]
     assert got[0]["in_domain"] == "true" and float(got[0]["vbi_gp_V"]) > 0 and got[0]["status"] == "ok"

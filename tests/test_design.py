@@ -34,7 +34,7 @@ def test_unit_suffixes(column, text, value):
     ("interlayer_nm", 50, "interlayer_nm: must be at least 0.5 nm thinner"),
     ("material", "Unobtainium", "material: unknown material 'Unobtainium'"),
     ("core_type", "q", "core_type: must be p or n (got 'q')"),
-    ("core_radius_nm", float("nan"), "core_radius_nm: required"),
+    ("core_radius_nm", float("nan"), "core_radius_nm: empty or missing value"),
 ])
 def test_each_bad_field_gets_one_clear_line(field, bad, fragment):
     with pytest.raises(DesignError) as err:

@@ -1,0 +1,157 @@
+"""The validation layer at the edges: strict numbers (no NaN, no infinity, no silent default),
+malformed API input as a DesignError, CSV files whose every input cell comes back unchanged, and
+outputs written all or nothing."""
+
+import csv
+import io
+import math
+import re
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from rich.console import Console
+
+import radialpn
+from radialpn.cli import main
+
+DESIGN = dict(material="GaAs", core_type="p", core_radius_nm=60.0, shell_thickness_nm=45.0, core_doping_cm3=2e18,
+              shell_doping_cm3=2e18, dit_cm2eV=5e12)
+HEADER = "material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV"
+#: the number grammar the docs state: ASCII decimal or exponent form, nothing else
+GRAMMAR = re.compile(r"[-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?", re.ASCII)
+
+
+def run(argv, stdin=None):
+    buf, out = io.StringIO(), io.StringIO()
+    code = main(argv, console=Console(file=buf, width=100, color_system=None), out=out, stdin=stdin)
+    return code, buf.getvalue(), out.getvalue()
+
+
+@pytest.mark.parametrize("column,value", [
+    ("temperature_K", "nan"), ("temperature_K", float("nan")), ("cnl_eV", float("nan")), ("dit_cm2eV", "inf"),
+    ("core_radius_nm", float("inf")), ("core_radius_nm", "1_000"), ("core_radius_nm", "١٢"),
+    ("core_radius_nm", "60\x00"), ("core_radius_nm", ""), ("core_radius_nm", None), ("core_radius_nm", True),
+    ("shell_thickness_nm", "1e999"), ("interlayer_nm", "nan"), ("dit_cm2eV", "5e12 cm-2"),
+])
+def test_malformed_values_are_errors_never_defaults(column, value):
+    # An optional column given with a bad value must not fall back to its default (300 K, the
+    # material's neutral level, no interlayer): the row says which field and what it got.
+    out = radialpn.predict({**DESIGN, column: value})
+    assert out["status"][0].startswith(f"{column}: ") and math.isnan(out["vbi_V"][0])
+
+
+def test_unit_forms_radialpn_prints_are_read_back():
+    # The front end prints cm⁻³ and cm⁻²eV⁻¹; a value copied from its output must parse.
+    assert radialpn.parse_quantity("core_doping_cm3", "2e18 cm⁻³") == 2e18
+    assert radialpn.parse_quantity("dit_cm2eV", "5e12 cm⁻²eV⁻¹") == 5e12
+    assert radialpn.parse_quantity("core_radius_nm", "0.06um") == pytest.approx(60.0, rel=1e-15)
+
+
+@settings(max_examples=3000, deadline=None, derandomize=True)
+@given(st.text(alphabet=st.sampled_from("0123456789.eE+-_ naifINFx١\x00"), max_size=12))
+def test_parse_quantity_accepts_exactly_the_stated_grammar(text):
+    # Any text either parses to a finite number equal to float() of the grammar's match, or
+    # raises the design error naming the column: nothing in between.
+    try:
+        x = radialpn.parse_quantity("cnl_eV", text)
+    except radialpn.DesignError as exc:
+        assert str(exc).startswith("cnl_eV: ")
+        assert not GRAMMAR.fullmatch(text.strip(" ")) or not math.isfinite(float(text.strip(" ")))
+    else:
+        assert GRAMMAR.fullmatch(text.strip(" ")) and x == float(text.strip(" ")) and math.isfinite(x)
+
+
+@pytest.mark.parametrize("bad", [5, "GaAs", [1, 2], [[1, 2]], {**DESIGN, "core_radius_nm": [[60, 70], [80, 90]]},
+                                 {**DESIGN, "core_radius_nm": [[60], [70, 80]]},
+                                 {**DESIGN, "core_radius_nm": [60, 70, 80], "shell_thickness_nm": [40, 50]}])
+def test_malformed_containers_raise_the_design_error(bad):
+    with pytest.raises(radialpn.DesignError) as err:
+        radialpn.predict(bad)
+    assert "\n" not in str(err.value)
+
+
+def test_pandas_missing_cells_get_a_status():
+    pd = pytest.importorskip("pandas")
+    df = pd.DataFrame([DESIGN, {**DESIGN, "material": pd.NA}, {**DESIGN, "core_radius_nm": pd.NA}], index=[7, 8, 9])
+    out = radialpn.predict(df)
+    assert list(out.index) == [7, 8, 9] and out["status"].iloc[0] == "ok"
+    assert out["status"].iloc[1].startswith("material:") and out["status"].iloc[2].startswith("core_radius_nm:")
+
+
+def _csv(tmp_path, text, name="in.csv"):
+    p = tmp_path / name
+    p.write_bytes(text.encode("utf-8") if isinstance(text, str) else text)
+    return str(p)
+
+
+@pytest.mark.parametrize("content,fragment", [
+    (HEADER + ",status\nGaAs,p,60,45,2e18,2e18,5e12,mine\n", "input column 'status' has the name of an output"),
+    (HEADER + ",core_type\nGaAs,p,60,45,2e18,2e18,5e12,n\n", "column 'core_type' appears twice"),
+    (HEADER + "\nGaAs,p,60,45,2e18,2e18,5e12,surplus\n", "line 2 has 8 cells, the header 7"),
+    (b"\xff\xfe\x00m\x00a", "not UTF-8 text"),
+    ("", "empty file"),
+    (HEADER.replace(",", ";") + "\nGaAs;p;60,5;45;2e18;2e18;5e12\n", "decimal commas"),
+])
+def test_batch_refuses_files_it_cannot_keep_intact(tmp_path, content, fragment):
+    code, text, _ = run(["batch", _csv(tmp_path, content)])
+    assert code == 2 and fragment in text and text.count("\n") == 1, text
+
+
+def test_batch_header_only_and_every_cell_back_unchanged(tmp_path):
+    code, _, out = run(["batch", _csv(tmp_path, HEADER + ",note\n")])
+    assert code == 0 and out.splitlines()[0].startswith(HEADER + ",note,regime,vbi_V")
+    cells = ["GaAs", "p", "60", "45.000", "2E18", "2e18 cm⁻³", "5e12", 'a "quoted", note\nover two lines']
+    rows = [cells, ["GaAs", "p", "nan", "45", "2e18", "2e18", "5e12", "bad row"], cells]
+    buf = io.StringIO()
+    csv.writer(buf).writerows([HEADER.split(",") + ["note"]] + rows)
+    code, _, out = run(["batch", _csv(tmp_path, buf.getvalue())])
+    back = list(csv.reader(io.StringIO(out)))
+    assert code == 3  # a valid file with one row unanswered: exit 3 unless --keep-going
+    for got, want in zip(back[1:], rows):
+        assert got[:8] == want  # byte for byte, in order
+    assert back[1][back[0].index("status")] == "ok" and back[2][back[0].index("status")].startswith("core_radius_nm:")
+    assert run(["batch", _csv(tmp_path, buf.getvalue()), "--keep-going"])[0] == 0
+
+
+def test_semicolon_files_are_read(tmp_path):
+    code, _, out = run(["batch", _csv(tmp_path, HEADER.replace(",", ";") + "\nGaAs;p;60;45;2e18;2e18;5e12\n")])
+    row = next(csv.DictReader(io.StringIO(out)))
+    assert code == 0 and row["status"] == "ok" and row["core_radius_nm"] == "60"
+
+
+@pytest.mark.parametrize("target,fragment", [("missing/out.csv", "does not exist"), (".", "is a folder"),
+                                             ("/dev/full", "not a regular file")])
+def test_unwritable_outputs_are_one_line_errors_and_leave_nothing(tmp_path, target, fragment, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    src = _csv(tmp_path, HEADER + "\nGaAs,p,60,45,2e18,2e18,5e12\n")
+    code, text, _ = run(["batch", src, "-o", target])
+    assert code == 2 and fragment in text and text.count("\n") == 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["in.csv"]  # no partial or temporary file
+
+
+def test_flags_refuse_nan_and_empty_values():
+    base = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "60nm", "--shell-thickness", "45nm",
+            "--core-doping", "2e18", "--shell-doping", "2e18", "--dit", "5e12"]
+    for flag, value in (("--temperature", "nan"), ("--cnl", "nan"), ("--interlayer", ""), ("--dit", "inf")):
+        argv = base + [flag, value] if flag not in base else [value if a == "5e12" else a for a in base]
+        code, text, _ = run(argv)
+        assert code == 2 and flag in text and text.count("\n") == 1, (flag, text)
+    code, text, _ = run(["profile"] + base[1:] + ["--height", "-3"])
+    assert code == 2 and "--height" in text
+
+
+def test_design_questions_refuse_bad_arguments():
+    for call in (lambda: radialpn.regime_map(DESIGN, ("dit_cm2eV", 0, 1e13), ("core_radius_nm", 20, 150)),
+                 lambda: radialpn.search(DESIGN, {}),
+                 lambda: radialpn.search(DESIGN, {"shell_thickness_nm": (2, 100)}, seed=-1),
+                 lambda: radialpn.spread(DESIGN, {"shell_thickness_nm": "-2nm"}),
+                 lambda: radialpn.spread(DESIGN, {"core_radius_nm": "inf%"}),
+                 lambda: radialpn.spread(DESIGN, {"cnl_eV": "0.1"}),
+                 lambda: radialpn.critical_dimensions(DESIGN, fraction_min=1.5),
+                 lambda: radialpn.predict(DESIGN, engine="quantum")):
+        with pytest.raises(radialpn.DesignError):
+            call()
+    m = radialpn.regime_map(DESIGN, ("dit_cm2eV", 0, 1e13, "linear"), ("core_radius_nm", 20, 150), (3, 2))
+    assert m["x_values"][0] == 0.0 and m["regime"].shape == (2, 3)
