@@ -24,18 +24,45 @@ from ._errors import RadialpnError
 FORMAT = "radialpn-bundle"
 FORMAT_VERSION = 1
 FILES = ("bundle.json", "arrays.npz")
+#: the most a bundle file may hold [bytes]: shipped bundles are ~3 MB compressed, ~4 MB inflated,
+#: a few kB of JSON; anything far larger is damaged or hostile and is refused before reading
+MAX_BYTES = {"SHA256SUMS": 4096, "bundle.json": 1 << 20, "arrays.npz": 64 << 20, "CARD.md": 1 << 20}
+MAX_INFLATED_BYTES = 256 << 20  #: all arrays together, decompressed
+MAX_ARRAYS = 4096
 
 
 class BundleError(RadialpnError):
     """A model bundle is missing, damaged or not a radialpn bundle."""
 
 
-def sha256(path: Path) -> str:
+def sha256(path: Path, limit: int | None = None) -> str:
+    """SHA-256 of a file, reading at most ``limit`` bytes (more is a BundleError)."""
     h = hashlib.sha256()
+    seen = 0
     with open(path, "rb") as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
+            seen += len(block)
+            if limit is not None and seen > limit:
+                raise BundleError(f"bundle {path.parent}: {path.name} is larger than {limit:,} bytes")
             h.update(block)
     return h.hexdigest()
+
+
+def _regular(path: Path, name: str) -> Path:
+    """``path`` if it is a regular file (not a device, pipe, folder or link out of the bundle)
+    no larger than ``MAX_BYTES[name]``; else a BundleError naming it."""
+    f = path / name
+    try:
+        st = os.stat(f)
+    except OSError:
+        raise BundleError(f"bundle {path}: {name} missing") from None
+    import stat as _stat
+
+    if not _stat.S_ISREG(st.st_mode):
+        raise BundleError(f"bundle {path}: {name} is not a regular file")
+    if st.st_size > MAX_BYTES[name]:
+        raise BundleError(f"bundle {path}: {name} is {st.st_size:,} bytes, more than the {MAX_BYTES[name]:,} allowed")
+    return f
 
 
 def bundle_dirs() -> list:
@@ -61,9 +88,11 @@ def find_bundles() -> dict:
 def read_bundle(path) -> tuple:
     """(meta, arrays) of a bundle directory, after checking its SHA-256 sums and format."""
     path = Path(path)
-    sums_file = path / "SHA256SUMS"
     try:
-        lines = sums_file.read_text(encoding="ascii").splitlines()
+        sums_file = _regular(path, "SHA256SUMS")
+        lines = sums_file.read_bytes()[:MAX_BYTES["SHA256SUMS"]].decode("ascii").splitlines()
+    except BundleError:
+        raise
     except (OSError, UnicodeDecodeError):
         raise BundleError(f"bundle {path}: SHA256SUMS missing or unreadable") from None
     sums = {}
@@ -74,10 +103,8 @@ def read_bundle(path) -> tuple:
     for name in FILES:
         if name not in sums:
             raise BundleError(f"bundle {path}: SHA256SUMS has no entry for {name}")
-        f = path / name
-        if not f.is_file():
-            raise BundleError(f"bundle {path}: {name} missing")
-        if sha256(f) != sums[name]:
+        f = _regular(path, name)
+        if sha256(f, MAX_BYTES[name]) != sums[name]:
             raise BundleError(f"bundle {path}: {name} fails its SHA-256 check (corrupted, truncated or "
                               "altered); reinstall radialpn or rebuild the bundle")
     try:
@@ -90,10 +117,22 @@ def read_bundle(path) -> tuple:
         raise BundleError(f"bundle {path}: format version {meta.get('format_version')} is not "
                           f"{FORMAT_VERSION}; use a matching radialpn")
     try:
+        with zipfile.ZipFile(path / "arrays.npz") as zf:  # sizes first: no inflating a bomb
+            infos = zf.infolist()
+        if len(infos) > MAX_ARRAYS or sum(i.file_size for i in infos) > MAX_INFLATED_BYTES:
+            raise BundleError(f"bundle {path}: arrays.npz inflates to more than {MAX_INFLATED_BYTES:,} bytes "
+                              f"or holds more than {MAX_ARRAYS} arrays")
         with np.load(path / "arrays.npz", allow_pickle=False) as z:
             arrays = {k: z[k] for k in z.files}
+    except BundleError:
+        raise
     except (ValueError, OSError, zipfile.BadZipFile, EOFError) as exc:
         raise BundleError(f"bundle {path}: arrays.npz unreadable ({exc})") from None
+    for k, a in arrays.items():
+        if a.dtype.kind not in "biuf":
+            raise BundleError(f"bundle {path}: array {k} has dtype {a.dtype}; only numbers and booleans are allowed")
+        if a.dtype.kind == "f" and not (np.isfinite(a).all() or (k.endswith("/threshold") and not np.isnan(a).any())):
+            raise BundleError(f"bundle {path}: array {k} holds NaN or infinite values")  # thresholds may be +-inf
     return meta, arrays
 
 

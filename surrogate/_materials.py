@@ -111,6 +111,9 @@ _REQUIRED = {
 }
 
 _registry: dict[str, Material] = {m.name.lower(): m for m in _BUILTIN}
+_BUILTIN_NAMES = frozenset(_registry)
+T_RANGE_K = (20.0, 1000.0)  #: the design table's temperature range, over which E_g must stay positive
+_NAME = __import__("re").compile(r"[A-Za-z][A-Za-z0-9_.()+-]{0,39}")
 _env_loaded = False
 
 
@@ -141,31 +144,47 @@ def material_names() -> list[str]:
 
 
 def register_material(material: Material) -> None:
-    """Add or replace a material in this process's table."""
+    """Add a material to this process's table (or replace a user material of the same name).
+    A built-in material cannot be redefined: the shipped surrogates are trained on it."""
+    if not isinstance(material, Material):
+        raise MaterialError(f"material: expected a Material (got {type(material).__name__})")
+    if material.name.lower() in _BUILTIN_NAMES:
+        raise MaterialError(f"material {material.name}: a built-in material cannot be redefined; give yours its own "
+                            f"name (e.g. {material.name}-mine)")
     _registry[material.name.lower()] = material
 
 
 def material_from_dict(name: str, values: dict) -> Material:
     """Build a ``Material`` from a mapping of the field names of ``Material``, checking each
     against its allowed range. ``sources`` (a mapping) is optional but recommended."""
+    if not isinstance(name, str) or not _NAME.fullmatch(name):
+        raise MaterialError(f"material: a name of 1-40 letters, digits and _.()+- starting with a letter (got {name!r})")
+    if not isinstance(values, dict):
+        raise MaterialError(f"material {name}: expected a table of fields")
     fields = {}
     for key, (lo, hi) in _REQUIRED.items():
         if key not in values:
             raise MaterialError(f"material {name}: missing field {key!r}")
-        try:
-            v = float(values[key])
-        except (TypeError, ValueError):
-            raise MaterialError(f"material {name}: {key} must be a number (got {values[key]!r})") from None
+        v = values[key]
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not np.isfinite(v):
+            raise MaterialError(f"material {name}: {key} must be a finite number in [{lo:g}, {hi:g}] (got {v!r})")
         if not lo <= v <= hi:
             raise MaterialError(f"material {name}: {key} must lie in [{lo:g}, {hi:g}] (got {v:g})")
-        fields[key] = v
+        fields[key] = float(v)
     unknown = set(values) - set(_REQUIRED) - {"sources"}
     if unknown:
         raise MaterialError(f"material {name}: unknown field(s) {', '.join(sorted(unknown))}")
     sources = values.get("sources", {"all": "user file (no source given)"})
     if not isinstance(sources, dict):
         raise MaterialError(f"material {name}: sources must be a table of field -> text")
-    return Material(name=name, sources=dict(sources), **fields)
+    if not all(isinstance(k, str) and isinstance(t, str) for k, t in sources.items()):
+        raise MaterialError(f"material {name}: sources must be a table of field -> text")
+    m = Material(name=name, sources=dict(sources), **fields)
+    gaps = m.band_gap(np.linspace(*T_RANGE_K, 200))
+    if not (gaps > 0.01).all():
+        raise MaterialError(f"material {name}: the band gap falls to {gaps.min():.3g} eV within {T_RANGE_K[0]:g}-"
+                            f"{T_RANGE_K[1]:g} K; it must stay above 0.01 eV (check varshni_alpha_eV_K, varshni_beta_K)")
+    return m
 
 
 def load_material_file(path) -> list[Material]:
@@ -177,6 +196,8 @@ def load_material_file(path) -> list[Material]:
     if not isinstance(data, dict) or not data:
         raise MaterialError(f"material file {path}: expected one table per material")
     data = data.get("materials", data)
+    if not isinstance(data, dict) or not data:
+        raise MaterialError(f"material file {path}: expected one table per material")
     out = []
     for name, values in data.items():
         if not isinstance(values, dict):

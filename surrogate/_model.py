@@ -10,13 +10,14 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._bundle import BundleError, find_bundles, read_bundle
+from ._bundle import MAX_BYTES, BundleError, find_bundles, read_bundle
 from ._design import REGIMES, DesignTable, normalize_designs
-from ._features import FEATURES_VERSION, features
+from ._features import FEATURE_NAMES, FEATURES_VERSION, features
 from ._gp import GaussianProcess
 from ._trees import TreeEnsemble
 
 CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for the solver
+DOMAIN_SLACK = 0.05  #: a bundle's domain may exceed its fitted data's span by this share of it
 AUX = ("core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V")
 _cache: dict = {}
 
@@ -29,10 +30,10 @@ class SurrogateModel:
             raise BundleError(f"bundle {meta.get('name')}: built for features version "
                               f"{meta.get('features_version')}, this radialpn has {FEATURES_VERSION}")
         self.meta, self.path = meta, path
-        self.name, self.material, self.core_type = meta["name"], meta["material"], meta["core_type"]
-        self.statistics = meta["statistics"]
-        self.domain = {k: (float(v[0]), float(v[1])) for k, v in meta["domain"].items()}
-        self.fixed = dict(meta.get("fixed", {}))
+        fields = _check_meta(meta)
+        self.name, self.material, self.core_type, self.statistics = fields["identity"]
+        self.domain, self.fixed = fields["domain"], fields["fixed"]
+        self.temperature_, self.q_gbm_, self.q_gp_ = fields["temperature"], fields["q_gbm"], fields["q_gp"]
 
         def part(prefix):
             return {k[len(prefix) + 1:]: v for k, v in arrays.items() if k.startswith(prefix + "/")}
@@ -40,6 +41,8 @@ class SurrogateModel:
             parts = [("regime", part("regime")), ("vbi", part("vbi")), ("difficulty", part("difficulty"))]
             parts += [(t, part(f"aux_{t}")) for t in AUX]
             ensembles = [TreeEnsemble(a) for _, a in parts]
+            if ensembles[0].n_outputs != len(REGIMES) or any(e.n_outputs != 1 for e in ensembles[1:]):
+                raise ValueError("tree models have the wrong number of outputs")
             self.forest_ = TreeEnsemble.stack(ensembles)  # one walk answers every tree model
             edges = np.cumsum([0] + [e.n_outputs for e in ensembles])
             self.slices_ = {name: slice(a, b) for (name, _), a, b in zip(parts, edges[:-1], edges[1:])}
@@ -47,15 +50,36 @@ class SurrogateModel:
             self.gp_mean_, self.gp_scale_ = arrays["gp/x_mean"], arrays["gp/x_scale"]
             self.ref_X_ = arrays["ref/X"]
             ref = {n: arrays[f"ref/{n}_raw"] for n in ("regime", "vbi", "difficulty")}
-        except (KeyError, ValueError) as exc:
+            d = len(FEATURE_NAMES)
+            if self.ref_X_.ndim != 2 or self.ref_X_.shape[1] != d or self.gp_.X.shape[1] != d \
+                    or self.gp_mean_.shape != (d,) or self.gp_scale_.shape != (d,) or not (self.gp_scale_ > 0).all():
+                raise ValueError(f"feature arrays do not have {d} columns")
+            if self.forest_.feature.max(initial=0) >= d or self.forest_.feature.min(initial=0) < 0:
+                raise ValueError("a tree splits on a feature that does not exist")
+        except (KeyError, ValueError, IndexError) as exc:
             raise BundleError(f"bundle {self.name}: arrays incomplete or inconsistent ({exc})") from None
         raw = self.forest_.raw_numpy(self.ref_X_)
         for n, want in ref.items():  # the numpy evaluator must reproduce the fitted models
-            if not np.allclose(raw[:, self.slices_[n]], want, rtol=0, atol=1e-9):
+            if want.shape != raw[:, self.slices_[n]].shape or not np.allclose(raw[:, self.slices_[n]], want, rtol=0,
+                                                                            atol=1e-9):
                 raise BundleError(f"bundle {self.name}: trees do not reproduce their reference rows")
-        self.temperature_ = float(meta["temperature"])
-        self.q_gbm_ = float(meta["conformal"]["q_gbm"])
-        self.q_gp_ = float(meta["conformal"]["q_gp"])
+        self._check_domain_against_data()
+
+    def _check_domain_against_data(self):
+        """The stated domain must lie inside the span of the design variables the models were
+        fitted on (the GP's training points, a sample of the training set), widened by
+        ``DOMAIN_SLACK`` of that span: a widened domain would call extrapolation in-domain."""
+        X = self.gp_.X * self.gp_scale_ + self.gp_mean_
+        for col, (lo, hi) in self.domain.items():
+            j = FEATURE_INDEX.get(col)
+            if j is None:
+                continue
+            f = np.log10 if col in LOG_FEATURES else (lambda x: x)
+            seen_lo, seen_hi = float(X[:, j].min()), float(X[:, j].max())
+            slack = DOMAIN_SLACK * (seen_hi - seen_lo)
+            if f(lo) < seen_lo - slack or f(hi) > seen_hi + slack:
+                raise BundleError(f"bundle {self.name}: domain of {col} [{lo:g}, {hi:g}] is wider than the data the "
+                                  "models were fitted on")
 
     def __repr__(self) -> str:
         return f"SurrogateModel({self.name!r}: {self.material} {self.core_type}-core, {self.statistics})"
@@ -151,6 +175,55 @@ class SurrogateModel:
                 "confirm_with_solver": confirm, **gp_cols}
 
 
+FEATURE_INDEX = {"core_radius_nm": 0, "shell_thickness_nm": 1, "core_doping_cm3": 2, "shell_doping_cm3": 3,
+                 "dit_cm2eV": 4, "cnl_eV": 5, "temperature_K": 6}  #: design column -> its feature (FEATURE_NAMES)
+LOG_FEATURES = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
+
+
+def _check_meta(meta: dict) -> dict:
+    """Field-by-field check of bundle.json: identity, domain, fixed values, calibration."""
+    from ._design import NUMERIC
+    from ._errors import MaterialError
+    from ._materials import get_material
+    from ._statistics import STATISTICS
+
+    name = meta.get("name")
+    where = f"bundle {name!r}"
+
+    def need(cond, what):
+        if not cond:
+            raise BundleError(f"{where}: bundle.json {what}")
+
+    need(isinstance(name, str) and name, "has no name")
+    try:
+        material = get_material(str(meta.get("material"))).name
+    except MaterialError:
+        raise BundleError(f"{where}: bundle.json names an unknown material {meta.get('material')!r}") from None
+    need(meta.get("core_type") in ("p", "n"), "core_type must be p or n")
+    need(meta.get("statistics") in STATISTICS, f"statistics must be one of {', '.join(STATISTICS)}")
+    dom = meta.get("domain")
+    need(isinstance(dom, dict) and dom, "has no domain")
+    domain = {}
+    for col, v in dom.items():
+        need(col in NUMERIC and isinstance(v, (list, tuple)) and len(v) == 2, f"domain entry {col!r} is malformed")
+        lo, hi = (float(x) if isinstance(x, (int, float)) and not isinstance(x, bool) else np.nan for x in v)
+        a, b = NUMERIC[col][:2]
+        need(np.isfinite([lo, hi]).all() and a <= lo < hi <= b, f"domain of {col} {v} is not inside [{a:g}, {b:g}]")
+        domain[col] = (lo, hi)
+    fixed = meta.get("fixed", {})
+    need(isinstance(fixed, dict) and all(c in NUMERIC and isinstance(x, (int, float)) and np.isfinite(x)
+                                         for c, x in fixed.items()), "fixed values are malformed")
+    conf = meta.get("conformal")
+    need(isinstance(conf, dict), "has no conformal calibration")
+    vals = {}
+    for key, src in (("temperature", meta.get("temperature")), ("q_gbm", conf.get("q_gbm")), ("q_gp", conf.get("q_gp"))):
+        ok = isinstance(src, (int, float)) and not isinstance(src, bool) and np.isfinite(src) and 0 < src < 1e3
+        need(ok, f"{key} must be a finite positive number (got {src!r})")
+        vals[key] = float(src)
+    return {"identity": (name, material, meta["core_type"], meta["statistics"]), "domain": domain,
+            "fixed": {c: float(x) for c, x in fixed.items()}, **vals}
+
+
 def load_bundle(path) -> SurrogateModel:
     """Load (and verify) the bundle in directory ``path``."""
     meta, arrays = read_bundle(path)
@@ -167,9 +240,9 @@ def load(material: str = "GaAs", core_type: str = "p") -> SurrogateModel:
         raise DesignError("core_type", "p or n", core_type)
     key = (get_material(material).name, ct)
     if key not in _cache:
-        for name, path in find_bundles().items():
-            meta, arrays = read_bundle(path)
-            if (meta.get("material"), meta.get("core_type")) == key:
+        for name, material, core, path in available():  # reads bundle.json only; arrays of the match
+            if (material, core) == key:
+                meta, arrays = read_bundle(path)
                 _cache[key] = SurrogateModel(meta, arrays, path)
                 break
         else:
@@ -186,9 +259,11 @@ def available() -> list:
     out = []
     for name, path in find_bundles().items():
         try:
+            if (path / "bundle.json").stat().st_size > MAX_BYTES["bundle.json"]:
+                raise ValueError("too large")
             meta = json.loads((path / "bundle.json").read_text(encoding="utf-8"))
             out.append((name, meta.get("material"), meta.get("core_type"), path))
-        except (OSError, ValueError):
+        except (OSError, ValueError, AttributeError):
             out.append((name, None, None, path))
     return out
 

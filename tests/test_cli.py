@@ -203,6 +203,12 @@ def test_models_lists_bundles():
     assert code == 0 and "gaas-pcore" in text and "gaas-ncore" in text
 
 
-def test_validate_small_no_write():
-    code, text, _ = run(["validate", "gaas-pcore", "--rows", "300", "--no-write", "--seed", "5"])
+def test_validate_never_changes_the_shipped_bundle(tmp_path):
+    # validate reports; it must not rewrite the installed bundle's figures or checksums.
+    path = {name: p for name, _, _, p in radialpn.available()}["gaas-pcore"]
+    before = {f: (path / f).read_bytes() for f in ("bundle.json", "CARD.md", "SHA256SUMS")}
+    report = tmp_path / "report.json"
+    code, text, _ = run(["validate", "gaas-pcore", "--rows", "300", "--seed", "5", "-o", str(report)])
     assert code == 0 and "regime accuracy" in text and "confusion" in text
+    assert json.loads(report.read_text())["rows"] == 300
+    assert {f: (path / f).read_bytes() for f in before} == before

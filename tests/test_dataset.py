@@ -50,11 +50,17 @@ def built(tmp_path_factory):
     ({"variables": {"wire_colour": {"min": 1, "max": 2}}}, "variables.wire_colour: not a numeric design-table column"),
     ({"bundle": {"name": "t", "material": "GaAs", "core_type": "x", "seed": 1}}, "bundle.core_type: must be p or n"),
     ({"sizes": {"train": 5}}, "sizes.train: allowed range [100, 1e+08]"),
+    ({"bundle": {"name": "../../x", "material": "GaAs", "core_type": "p", "seed": 1}}, "bundle.name: 1-64 letters"),
+    ({"bundle": {"name": "t", "material": "GaAs", "core_type": "p", "seed": -1}}, "bundle.seed: a whole number"),
+    ({"variables": {"core_radius_nm": {"min": "ten", "max": 300}}}, "variables.core_radius_nm.min: a finite number"),
+    ({"variables": {"core_radius_nm": {"min": {"a": 1}, "max": 300}}}, "variables.core_radius_nm.min: a finite"),
+    ({"fixed": {"interlayer_nm": "abc"}}, "fixed.interlayer_nm: a finite number"),
+    ({"fixed": 5}, "fixed: expected a table"),
 ])
 def test_spec_errors_name_the_key(patch, fragment):
     data = {k: (dict(v) if isinstance(v, dict) else v) for k, v in BASE.items()}
     for k, v in patch.items():
-        data[k] = {**data[k], **v} if k != "bundle" else v
+        data[k] = {**data[k], **v} if k in data and k != "bundle" and isinstance(v, dict) else v
     with pytest.raises(SpecError) as err:
         spec_from_dict(data)
     assert fragment in str(err.value) and "\n" not in str(err.value)
@@ -147,3 +153,18 @@ def test_dask_cluster_gives_the_same_rows(built, tmp_path):
         with joblib.parallel_config(backend="dask"):
             build_dataset(spec(), tmp_path, n_jobs=-1)
     assert shard_bytes(tmp_path) == shard_bytes(built)
+
+
+def test_manifest_is_deterministic_and_a_second_run_is_refused(built, tmp_path):
+    # Same spec, same solver: the manifest's bytes match too (no timestamp), so a resumed or
+    # repeated build is byte-identical in every file it writes.
+    other = tmp_path / "again"
+    build_dataset(spec(), other, n_jobs=1)
+    assert (other / "manifest.json").read_bytes() == (Path(built) / "manifest.json").read_bytes()
+    assert shard_bytes(other) == shard_bytes(built)
+    import fcntl
+
+    with open(other / ".lock", "a") as fh:  # as another run holding the folder would
+        fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        with pytest.raises(DatasetError, match="another radialpn run is writing"):
+            build_dataset(spec(), other, n_jobs=1)

@@ -80,3 +80,35 @@ def test_bad_material_file(tmp_path, body, fragment):
 def test_unknown_material_names_known_ones():
     with pytest.raises(MaterialError, match="known: .*GaAs"):
         get_material("Unobtainium")
+
+
+GOOD_FIELDS = ("varshni_alpha_eV_K = 5.405e-4\nvarshni_beta_K = 204\npermittivity_rel = 12.9\nnc_300_cm3 = 4.7e17\n"
+               "nv_300_cm3 = 9.0e18\ncnl_eV = 0.5\n")
+
+
+@pytest.mark.parametrize("body,fragment", [
+    ("materials = 5\n", "expected one table per material"),
+    ("[X]\nband_gap_300_eV = true\n" + GOOD_FIELDS, "must be a finite number"),
+    ("[X]\nband_gap_300_eV = \"1.4\"\n" + GOOD_FIELDS, "must be a finite number"),
+    ("[X]\nband_gap_300_eV = nan\n" + GOOD_FIELDS, "must be a finite number"),
+    # E_g(T) = E_g(300) - alpha (T^2/(T+beta) - 300^2/(300+beta)) (Varshni, Physica 34, 149 (1967),
+    # doi:10.1016/0031-8914(67)90062-6): with alpha = 5e-3 eV/K it is negative long before 1000 K
+    ("[X]\nband_gap_300_eV = 0.5\n" + GOOD_FIELDS.replace("5.405e-4", "5e-3"), "band gap falls to"),
+    ("[GaAs]\nband_gap_300_eV = 1.0\n" + GOOD_FIELDS, "built-in material cannot be redefined"),
+])
+def test_material_files_are_physical_and_cannot_redefine_built_ins(tmp_path, body, fragment):
+    f = tmp_path / "m.toml"
+    f.write_text(body)
+    with pytest.raises(MaterialError) as err:
+        for m in load_material_file(f):
+            register_material(m)
+    assert fragment in str(err.value) and "\n" not in str(err.value)
+    assert get_material("GaAs").band_gap_300_eV == pytest.approx(1.424, abs=1e-3)  # built-in untouched
+
+
+def test_deeply_nested_json_is_a_one_line_error(tmp_path):
+    f = tmp_path / "deep.json"
+    f.write_text("[" * 100_000 + "]" * 100_000)
+    with pytest.raises(MaterialError) as err:
+        load_material_file(f)
+    assert "\n" not in str(err.value)

@@ -17,6 +17,7 @@ exactly the missing shards and the directory ends up byte-identical to an uninte
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import json
 import os
@@ -76,7 +77,7 @@ def _write_shard(path: Path, split: str, rnd: int, first: int, designs: dict, ou
     n = len(out["status"])
     cols = {**{k: np.broadcast_to(np.asarray(v, dtype=object if isinstance(v, str) else None), (n,))
                for k, v in designs.items()}, **out}
-    tmp = path.with_name(f".{path.name}.tmp")
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
     with open(tmp, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh, lineterminator="\n")
         w.writerow(COLUMNS)
@@ -106,17 +107,41 @@ def _check_manifest(spec: DomainSpec, root: Path) -> None:
             have = json.loads(path.read_text())
         except ValueError:
             raise DatasetError(f"{path}: damaged manifest; use a new directory") from None
+        if not isinstance(have, dict):
+            raise DatasetError(f"{path}: damaged manifest; use a new directory")
         for key, value in want.items():
             if have.get(key) != value:
                 raise DatasetError(f"{root}: holds a dataset of another {key.split('_')[0]} "
                                    f"({have.get(key)!s:.12} vs {value!s:.12}); use a new directory")
         return
     root.mkdir(parents=True, exist_ok=True)
-    manifest = dict(want, spec=spec.to_dict(), plan=[list(x) for x in plan(spec)], created=time.time(),
-                    columns=list(COLUMNS))
-    tmp = root / ".manifest.json.tmp"
-    tmp.write_text(json.dumps(manifest, indent=2))
+    # deterministic: the same spec and solver give the same bytes (no timestamp)
+    manifest = dict(want, spec=spec.to_dict(), plan=[list(x) for x in plan(spec)], columns=list(COLUMNS))
+    tmp = root / f".manifest.json.{os.getpid()}.tmp"
+    tmp.write_text(json.dumps(manifest, indent=2, sort_keys=True))
     os.replace(tmp, path)
+
+
+@contextlib.contextmanager
+def _locked(root: Path):
+    """Hold an exclusive lock on ``root`` for one build: a second run into the same folder is
+    refused at once instead of colliding on its files (POSIX advisory lock; released on any exit)."""
+    root.mkdir(parents=True, exist_ok=True)
+    try:
+        import fcntl
+    except ImportError:  # not POSIX: no lock
+        yield
+        return
+    with open(root / ".lock", "a") as fh:
+        try:
+            fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except OSError:
+            raise DatasetError(f"{root}: another radialpn run is writing this dataset; wait for it to finish or "
+                               "use another folder") from None
+        try:
+            yield
+        finally:
+            fcntl.flock(fh, fcntl.LOCK_UN)
 
 
 def build_dataset(spec: DomainSpec, out_dir, n_jobs: int = 1, backend: str | None = None, progress=None) -> dict:
@@ -127,9 +152,14 @@ def build_dataset(spec: DomainSpec, out_dir, n_jobs: int = 1, backend: str | Non
     ``progress(solved_now, already_done, total)`` (rows) is called as shards finish. Returns counts:
     rows written now, rows found already done, seconds.
     """
+    root = Path(out_dir)
+    with _locked(root):
+        return _build(spec, root, n_jobs, backend, progress)
+
+
+def _build(spec: DomainSpec, root: Path, n_jobs, backend, progress) -> dict:
     from joblib import Parallel, delayed
 
-    root = Path(out_dir)
     _check_manifest(spec, root)
     for split in SPLITS:
         (root / split).mkdir(exist_ok=True)

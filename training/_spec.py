@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import re
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
@@ -110,10 +111,24 @@ def _need(table, key, where, kind=None):
     return v
 
 
+_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
+
+
+def _number(v, where, lo, hi) -> float:
+    """A finite number in [lo, hi] (no text, no true/false), else a SpecError naming ``where``."""
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or not np.isfinite(v) or not lo <= v <= hi:
+        raise SpecError(f"{where}: a finite number in [{lo:g}, {hi:g}] (got {v!r})")
+    return float(v)
+
+
 def spec_from_dict(data: dict) -> DomainSpec:
     """Build and check a ``DomainSpec`` from the parsed TOML tables."""
+    if not isinstance(data, dict):
+        raise SpecError("spec: expected tables [bundle], [variables], [fixed], [sizes]")
     b = _need(data, "bundle", "spec", dict)
-    name = str(_need(b, "name", "bundle"))
+    name = _need(b, "name", "bundle", str)
+    if not _NAME.fullmatch(name) or ".." in name:
+        raise SpecError(f"bundle.name: 1-64 letters, digits and _.- (it names folders; no paths) (got {name!r})")
     material = get_material(str(_need(b, "material", "bundle"))).name
     core_type = str(_need(b, "core_type", "bundle")).lower()
     if core_type not in ("p", "n"):
@@ -122,6 +137,8 @@ def spec_from_dict(data: dict) -> DomainSpec:
     if statistics not in STATISTICS:
         raise SpecError(f"bundle.statistics: one of {', '.join(STATISTICS)} (got {statistics!r})")
     seed = _need(b, "seed", "bundle", int)
+    if isinstance(seed, bool) or not 0 <= seed < 2 ** 63:
+        raise SpecError(f"bundle.seed: a whole number in [0, 2^63) (got {seed!r})")
     variables = []
     for col, t in _need(data, "variables", "spec", dict).items():
         if col not in NUMERIC_COLUMNS:
@@ -129,7 +146,8 @@ def spec_from_dict(data: dict) -> DomainSpec:
         if not isinstance(t, dict):
             raise SpecError(f"variables.{col}: expected a table {{min, max, transform}}")
         lo_ok, hi_ok = NUMERIC_COLUMNS[col][:2]
-        lo, hi = float(_need(t, "min", f"variables.{col}")), float(_need(t, "max", f"variables.{col}"))
+        lo = _number(_need(t, "min", f"variables.{col}"), f"variables.{col}.min", lo_ok, hi_ok)
+        hi = _number(_need(t, "max", f"variables.{col}"), f"variables.{col}.max", lo_ok, hi_ok)
         tr = str(t.get("transform", "linear"))
         if tr not in ("log", "linear"):
             raise SpecError(f"variables.{col}.transform: log or linear (got {tr!r})")
@@ -140,11 +158,17 @@ def spec_from_dict(data: dict) -> DomainSpec:
         variables.append(Variable(col, lo, hi, tr))
     if not variables:
         raise SpecError("variables: at least one sampled variable")
-    fixed = dict(data.get("fixed", {}))
+    fixed = data.get("fixed", {})
+    if not isinstance(fixed, dict):
+        raise SpecError(f"fixed: expected a table of column = value (got {fixed!r})")
+    fixed = dict(fixed)
     for col in fixed:
         if col not in NUMERIC_COLUMNS or col in {v.name for v in variables}:
             raise SpecError(f"fixed.{col}: a numeric design-table column that is not sampled")
+        fixed[col] = _number(fixed[col], f"fixed.{col}", *NUMERIC_COLUMNS[col][:2])
     s = data.get("sizes", {})
+    if not isinstance(s, dict):
+        raise SpecError(f"sizes: expected a table (got {s!r})")
     sizes = {}
     for key, lo, hi, kind in (("train", 100, 10 ** 8, int), ("refine_rounds", 0, 20, int),
                               ("refine_fraction", 0.0, 0.9, (int, float)), ("calibration", 0, 10 ** 7, int),

@@ -48,8 +48,9 @@ def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, va
     return report
 
 
-def validate_bundle(path, rows=6000, seed=777, n_jobs=-1, write=True) -> dict:
-    """Validate an existing bundle on fresh solver runs; optionally store the report in it."""
+def validate_bundle(path, rows=6000, seed=777, n_jobs=-1, write=False) -> dict:
+    """Validate an existing bundle on fresh solver runs. ``write=True`` stores the report in the
+    bundle (only for a bundle you are building; the front end never does)."""
     meta, arrays = read_bundle(path)
     report = validate(SurrogateModel(meta, arrays, path), rows, seed, n_jobs=n_jobs)
     if write:
