@@ -11,25 +11,28 @@ import os
 import numpy as np
 from rich.panel import Panel
 from rich.table import Table
+from rich.text import Text
 
 import radialpn
 from radialpn import INPUT_COLUMNS, normalize_designs
 
 from . import _errors
 from ._csvio import atomic_text, read_table
-from ._designargs import add_design_flags, design_from_args, engine_flags, flag_hint, progress_bar
+from ._designargs import add_design_flags, confirm_flag, design_from_args, engine_flags, flag_hint, progress_bar
 from ._render import CAUTION, answer_table, design_line, verify_line
 
 EXTRA_OUTPUTS = ("regime_prob", "vbi_low_V", "vbi_high_V", "in_domain", "confirm_with_solver",  # surrogate
                  "vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V",
                  "core_margin", "shell_margin", "junction_edge_nm",  # depletion engine
-                 "core_majority_ln", "shell_majority_ln", "charge_residual", "iterations", "solver_version")  # solver
+                 "core_majority_ln", "shell_majority_ln", "charge_residual", "iterations", "solver_version",  # solver
+                 "engine_note")  # auto: why the solver answered a row
 
 
 def register(sub) -> None:
     ask = sub.add_parser("ask", help="regime and built-in potential of one design")
     add_design_flags(ask)
     engine_flags(ask)
+    confirm_flag(ask)
     ask.add_argument("--json", action="store_true", help="print one JSON row (design-table columns)")
     ask.add_argument("--verify", action="store_true", help="also run the reference solver and compare")
     ask.set_defaults(handler=cmd_ask)
@@ -38,6 +41,7 @@ def register(sub) -> None:
     batch.add_argument("input", metavar="IN.csv", help="CSV with design-table columns (extra columns kept)")
     batch.add_argument("-o", "--output", metavar="OUT.csv", help="where to write (default: standard output)")
     engine_flags(batch)
+    confirm_flag(batch)
     batch.add_argument("--keep-going", action="store_true",
                        help="exit 0 even when some rows have no answer (their reason is in status)")
     batch.add_argument("--second-opinion", action="store_true",
@@ -79,15 +83,15 @@ def cmd_ask(args, console, out) -> int:
     table = normalize_designs({k: [v] for k, v in design.items()})
     if table.status[0] != "ok":
         raise _errors.UsageError(flag_hint(str(table.status[0])))
-    if args.engine == "surrogate":  # load (and verify) the bundle before the clock starts
+    if args.engine in ("surrogate", "auto"):  # load (and verify) the bundle before the clock starts
         try:
             radialpn.load(table.material[0], "p" if table.p_core[0] else "n")
-        except radialpn.BundleError:
+        except (radialpn.BundleError, radialpn.DesignError):
             pass  # predict reports it in status
     if args.engine != "solver":  # warm up (lookup tables built on first use), then time the answer
-        radialpn.predict(table, args.engine, args.statistics, second_opinion=True)
+        radialpn.predict(table, args.engine, args.statistics, second_opinion=True, confirm=args.confirm)
     t = time.perf_counter()
-    result = radialpn.predict(table, args.engine, args.statistics, second_opinion=True)
+    result = radialpn.predict(table, args.engine, args.statistics, second_opinion=True, confirm=args.confirm)
     elapsed = time.perf_counter() - t
     mat = radialpn.get_material(table.material[0])
     if math.isnan(table.values["cnl_eV"][0]):  # show the material's default explicitly
@@ -95,7 +99,7 @@ def cmd_ask(args, console, out) -> int:
     row = _row(table, result, 0)
     row["seconds"] = elapsed
     check = None
-    if args.verify and row["status"] == "ok" and args.engine != "solver":
+    if args.verify and row["status"] == "ok" and row["engine"] != "solver":
         t = time.perf_counter()
         check = _row(table, radialpn.solve(table, args.statistics), 0)
         check["seconds"] = time.perf_counter() - t
@@ -111,6 +115,8 @@ def cmd_ask(args, console, out) -> int:
         console.print(f"[bold #d9534f]no answer:[/] {row['status']}")
         return _errors.NO_ANSWER
     console.print(answer_table(row))
+    if row.get("engine_note"):
+        console.print(Text(f"auto engine: {row['engine_note']}", style="dim"))
     if check is not None:
         console.print(verify_line(row, check))
     console.print(f"[dim]{CAUTION}[/]")
@@ -129,7 +135,7 @@ def cmd_batch(args, console, out) -> int:
     designs = {c: [r[index[c]] for r in rows] for c in INPUT_COLUMNS if c in index}
     if rows:
         result = answer_with_progress(normalize_designs(designs), args.engine, args.statistics, console,
-                                      second_opinion=args.second_opinion)
+                                      second_opinion=args.second_opinion, confirm=args.confirm)
     else:  # a header alone: the answer is the header with its output columns
         result = {c: np.zeros(0, dtype=object) for c in radialpn.OUTPUT_COLUMNS}
     out_cols = [c for c in reserved if c in result]

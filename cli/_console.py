@@ -109,7 +109,7 @@ def cmd_console(args, console, out, stdin=None) -> int:
     session = Session({"material": table.material[0], "core_type": "p" if table.p_core[0] else "n",
                        **{k: float(v[0]) for k, v in table.values.items() if not math.isnan(v[0])}},
                       args.engine, args.statistics)
-    if args.engine == "surrogate":
+    if args.engine in ("surrogate", "auto"):
         try:
             radialpn.load(session.design["material"], session.design["core_type"])  # warm before the first answer
         except radialpn.BundleError:

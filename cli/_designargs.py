@@ -46,6 +46,11 @@ def engine_flags(sp, engines=None, default=None) -> None:
                     help="carrier statistics for the bulk Fermi levels (default fermi-dirac)")
 
 
+def confirm_flag(sp) -> None:
+    sp.add_argument("--confirm", action="store_true",
+                    help="auto engine: re-answer designs the surrogate flags as uncertain with the solver")
+
+
 def target_flags(sp) -> None:
     """The V_bi target of size, search and spread."""
     sp.add_argument("--fraction", type=float, default=0.9, help="target V_bi >= FRACTION * V_bi0 (default 0.9)")

@@ -82,7 +82,8 @@ def answer_table(row: dict) -> Table:
     where = "axis → surface" if row.get("junction_edge_nm") is not None else "axis → surface (extents to scale, slab placed schematically)"
     t.add_row("cross-section", Text.assemble(cross_section(row), Text(f"  {where}", style="dim")))
     if "in_domain" in row:
-        t.add_row("trained domain", "inside" if row["in_domain"] else "OUTSIDE (no answer)")
+        outside = "outside: answered by the reference solver" if row.get("engine") == "solver" else "OUTSIDE (no answer)"
+        t.add_row("trained domain", "inside" if row["in_domain"] else outside)
     if row.get("confirm_with_solver"):
         t.add_row("", Text("⚑ uncertain here: confirm with --verify or --engine solver", style="bold #e0a526"))
     if "seconds" in row:

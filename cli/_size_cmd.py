@@ -39,7 +39,7 @@ def register(sub) -> None:
     se.add_argument("--vary", action="append", default=[], metavar="NAME:LOW:HIGH", help="a free variable (repeatable)")
     se.add_argument("--minimize", choices=("total-radius", "core-radius", "shell-thickness"), default="total-radius")
     se.add_argument("--regime", action="append", choices=radialpn.REGIMES, help="also require this regime (repeatable)")
-    se.add_argument("--candidates", type=int, default=1_000_000, help="random candidates (default 1e6)")
+    se.add_argument("--candidates", type=int, default=200_000, help="random candidates (default 200000)")
     se.add_argument("--top", type=int, default=5, help="winners to show and re-check with the solver")
     se.add_argument("--seed", type=int, default=0)
     se.set_defaults(handler=cmd_search)

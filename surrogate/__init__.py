@@ -43,14 +43,18 @@ __version__ = "0.2.0"
 
 
 def predict(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", second_opinion: bool = False,
-            progress=None):
-    """Regime and built-in potential of each design by ``engine``: ``"surrogate"`` (default; the
+            confirm: bool = False, progress=None):
+    """Regime and built-in potential of each design by ``engine``: ``"auto"`` (default: the
+    surrogate inside a validated bundle's domain, the reference solver for every other valid
+    row; ``engine`` and ``engine_note`` say which answered and why), ``"surrogate"`` (the
     installed bundle of each row's material and core type, with ``regime_prob``, a 95 %
     interval ``vbi_low_V``..``vbi_high_V`` [V] and ``in_domain``; rows outside a bundle's
     trained domain get a status and no numbers), ``"depletion"`` or ``"solver"``.
-    ``second_opinion`` adds the surrogate's Gaussian-process columns ``vbi_gp_*`` [V].
+    ``second_opinion`` adds the surrogate's Gaussian-process columns ``vbi_gp_*`` [V] (and flags
+    disagreements); ``confirm`` (auto) re-answers flagged rows with the solver.
     ``progress(done, total)`` is called on long runs."""
-    return _like_input(designs, _engines.answer(designs, engine, statistics, second_opinion, progress=progress))
+    return _like_input(designs, _engines.answer(designs, engine, statistics, second_opinion, progress=progress,
+                                                confirm=confirm))
 
 
 def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_jobs: int = 1):

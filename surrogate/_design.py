@@ -142,7 +142,17 @@ def _as_columns(designs):
     if rows and not all(isinstance(r, dict) for r in rows):
         raise DesignError("designs", form, "a list of " + type(next(r for r in rows if not isinstance(r, dict))).__name__)
     keys = {k for r in rows for k in r}
-    return {k: [r.get(k) for r in rows] for k in keys}, len(rows)
+    return {k: [r.get(k, _ABSENT) for r in rows] for k in keys}, len(rows)
+
+
+class _Absent:
+    """A key a row dict does not have: that row takes the column's default, as if absent."""
+
+    def __str__(self):  # categorical columns read it as blank: "required"
+        return ""
+
+
+_ABSENT = _Absent()
 
 
 def _blank(v) -> bool:
@@ -248,6 +258,8 @@ def normalize_designs(designs) -> DesignTable:
         text = str(value).strip().lower().removesuffix("-core").removesuffix("core")
         if text == "p":
             p_core |= sel
+        elif text == "":
+            st.fail(sel, "core_type: required, one of p, n")
         elif text != "n":
             st.fail(sel, f"core_type: must be p or n (got {str(value)!r})")
     # numeric columns
@@ -260,6 +272,16 @@ def normalize_designs(designs) -> DesignTable:
             values[name] = np.full(n, np.nan if default is None else default)
             continue
         arr = np.asarray(raw)
+        absent = None
+        if arr.dtype == object and arr.ndim:
+            absent = np.fromiter((v is _ABSENT for v in arr.tolist()), dtype=bool, count=arr.size)
+            if absent.any():
+                if default is None:
+                    st.fail(absent, f"{name}: required, allowed range [{lo:g}, {hi:g}]")
+                arr = arr.copy()
+                arr[absent] = repr(float(lo))  # a placeholder that parses; replaced by the default below
+            else:
+                absent = None
         if arr.dtype.kind in "UO" and arr.ndim:  # text: a column of plain numbers converts in one step
             text = arr.astype(str)
             if _PLAIN_COLUMN.fullmatch("\n".join(text.tolist()) + "\n"):
@@ -273,7 +295,7 @@ def normalize_designs(designs) -> DesignTable:
             if bad.any():
                 st.fail(bad, np.array([f"{name}: expected a finite number (got {v})" for v in x], dtype=object))
         else:
-            uniq, inv = categories(raw, n)
+            uniq, inv = categories(arr, n)
             parsed = np.full(len(uniq), np.nan)
             for k, v in enumerate(uniq):
                 try:
@@ -281,6 +303,8 @@ def normalize_designs(designs) -> DesignTable:
                 except DesignError as exc:
                     st.fail(inv == k, str(exc))
             x = parsed[inv]
+        if absent is not None:
+            x = np.where(absent, np.nan if default is None else default, x)
         blank = np.zeros(n, dtype=bool)
         if default is not None and math.isnan(default):  # NaN means "the material's own"
             blank = blank | np.isnan(x)

@@ -1,7 +1,10 @@
-"""The engines behind every design question, chosen by name: ``"surrogate"`` (the default: a
-validated bundle, milliseconds), ``"depletion"`` (the analytic approximation) and ``"solver"``
-(the reference nonlinear Poisson solver). Each maps design-table rows to output columns; this
-module only picks which one answers and, for long runs, reports progress chunk by chunk."""
+"""The engines behind every design question, chosen by name: ``"auto"`` (the default: the
+surrogate where a design lies inside a validated bundle's domain, the reference solver for every
+other valid row), ``"surrogate"`` (bundles only; rows outside refused with a reason),
+``"depletion"`` (the analytic approximation) and ``"solver"`` (the reference nonlinear Poisson
+solver). Each maps design-table rows to output columns; every row's ``engine`` says which engine
+answered it and ``engine_note`` why (auto and confirm). This module only picks the engine and,
+for long runs, reports progress chunk by chunk."""
 
 from __future__ import annotations
 
@@ -13,10 +16,10 @@ from ._errors import DesignError
 from ._model import empty_result, predict_bundles
 from ._statistics import check_statistics
 
-ENGINES = ("surrogate", "depletion", "solver")
-DEFAULT_ENGINE = "surrogate"
+ENGINES = ("auto", "surrogate", "depletion", "solver")
+DEFAULT_ENGINE = "auto"
 #: rows per second, roughly (benchmarks/): runs longer than about a second report progress
-RATE = {"solver": 3000, "surrogate": 40_000, "surrogate+gp": 15_000, "depletion": 1_000_000}
+RATE = {"solver": 3000, "surrogate": 20_000, "auto": 20_000, "surrogate+gp": 10_000, "depletion": 1_000_000}
 
 
 def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_jobs: int = 1) -> dict:
@@ -39,7 +42,8 @@ def _surrogate(table, statistics, second_opinion=False):
     if statistics == "fermi-dirac":
         return predict_bundles(table, second_opinion=second_opinion)
     res = empty_result(table.n, second_opinion, table.status)
-    msg = f"surrogate: bundles are trained with fermi-dirac statistics, not {statistics}; use the solver engine"
+    msg = (f"surrogate: bundles are trained with fermi-dirac statistics, not {statistics}; the solver engine "
+           "(or auto) answers it")
     res["status"] = np.where(table.status == "ok", msg, table.status).astype(object)
     return res
 
@@ -50,20 +54,73 @@ def check_engine(engine: str) -> str:
     return engine
 
 
+def _blank_like(v, n):
+    a = np.asarray(v)
+    if a.dtype.kind == "f":
+        return np.full(n, np.nan)
+    if a.dtype.kind == "b":
+        return np.zeros(n, dtype=bool)
+    if a.dtype.kind in "iu":
+        return np.zeros(n, dtype=a.dtype)
+    return np.full(n, "", dtype=object)
+
+
+def _merge(n, parts) -> dict:
+    """Columns of several engines' answers for disjoint row sets [(rows, answer), ...]: every
+    column any of them returns, blank where an engine does not give it."""
+    out = {}
+    for rows, res in parts:
+        for k, v in res.items():
+            if k not in out:
+                out[k] = _blank_like(v, n)
+            out[k][rows] = v
+    return out
+
+
+def _auto(table, statistics, second_opinion, confirm, n_jobs):
+    """Surrogate where it may answer; the solver for valid rows it refuses (and, with
+    ``confirm``, for rows it flags as uncertain). ``engine_note`` says why the solver answered."""
+    res = _surrogate(table, statistics, second_opinion)
+    note = np.full(table.n, "", dtype=object)
+    valid = table.status == "ok"
+    refused = valid & (res["status"] != "ok")
+    note[refused] = ["solver: " + str(s).removeprefix("surrogate: ") for s in res["status"][refused]]
+    if confirm:
+        unsure = valid & ~refused & res["confirm_with_solver"]
+        note[unsure] = "solver: re-answered, the surrogate flagged this design as uncertain"
+        refused |= unsure
+    rows = np.flatnonzero(refused)
+    if not rows.size:
+        return {**res, "engine_note": note}
+    sub = table.take(rows)
+    ref = solve(sub, statistics, n_jobs=n_jobs if n_jobs is not None else (-1 if rows.size > 2000 else 1))
+    keep = np.flatnonzero(~refused)
+    out = _merge(table.n, [(keep, {k: v[keep] for k, v in res.items()}), (rows, ref)])
+    out["in_domain"][rows] = res["in_domain"][rows]
+    out["engine_note"] = note
+    return out
+
+
 def answer(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", second_opinion: bool = False,
-           progress=None, n_jobs: int | None = None) -> dict:
+           progress=None, n_jobs: int | None = None, confirm: bool = False) -> dict:
     """Output columns of ``engine`` for ``designs`` (any form ``normalize_designs`` takes).
 
     ``progress(done, total)``, if given, is called after each chunk on runs expected to take
     more than about a second. ``second_opinion`` adds the surrogate's Gaussian-process columns.
-    ``n_jobs``: solver threads (default: one per core above 2,000 rows)."""
+    ``n_jobs``: solver threads (default: one per core above 2,000 rows). ``confirm`` (auto
+    engine): rows the surrogate flags as uncertain are re-answered by the solver."""
     check_engine(engine)
     statistics = check_statistics(statistics)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
 
     def run(part):
+        if engine == "auto":
+            return _auto(part, statistics, second_opinion, confirm, n_jobs)
         if engine == "surrogate":
-            return _surrogate(part, statistics, second_opinion)
+            res = _surrogate(part, statistics, second_opinion)
+            refused = (part.status == "ok") & (res["status"] != "ok")
+            res["status"][refused] = [f"{s}; engine 'auto' or 'solver' answers it" for s in res["status"][refused]]
+            return res
         if engine == "depletion":
             return deplete(part, statistics)
         return solve(part, statistics, n_jobs=n_jobs if n_jobs is not None else (-1 if part.n > 2000 else 1))

@@ -17,6 +17,7 @@ from ._gp import GaussianProcess
 from ._trees import TreeEnsemble
 
 CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for the solver
+MIN_NEUTRAL_NM = 0.05  #: a region the regime keeps is reported with at least this neutral extent [nm]
 DOMAIN_SLACK = 0.05  #: a bundle's domain may exceed its fitted data's span by this share of it
 AUX = ("core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V")
 _cache: dict = {}
@@ -137,23 +138,31 @@ class SurrogateModel:
             p = np.exp(z)
             p /= p.sum(1, keepdims=True)
             code = p.argmax(1)
-            vbi = da["vbi_V"] + raw[:, sl["vbi"]][:, 0]
+            # bounds by construction: 0 <= V_bi <= V_bi0 for the estimate and both interval ends
+            # (the electrostatic barrier cannot exceed the bulk one on a depleting surface nor be negative)
+            vbi0 = da["vbi0_V"]
+            centre = da["vbi_V"] + raw[:, sl["vbi"]][:, 0]
             half = self.q_gbm_ * np.exp(raw[:, sl["difficulty"]][:, 0])
+            vbi = np.clip(centre, 0.0, vbi0)
             names = np.array(REGIMES, dtype=object)
             regime[rows] = names[code]
             out["regime_prob"][rows] = p.max(1)
             out["vbi_V"][rows] = vbi
-            out["vbi_low_V"][rows], out["vbi_high_V"][rows] = vbi - half, vbi + half
+            out["vbi_low_V"][rows] = np.clip(centre - half, 0.0, vbi0)
+            out["vbi_high_V"][rows] = np.clip(centre + half, 0.0, vbi0)
             out["vbi0_V"][rows] = da["vbi0_V"]
+            # extents follow the regime: zero where it empties a region; where it keeps one, at
+            # least MIN_NEUTRAL_NM (a contradicting extent model is overruled and the row flagged)
             core_kept, shell_kept = np.isin(code, (0, 2)), np.isin(code, (0, 1))
+            flag = p.max(1) < CONFIRM_PROB
             for t in AUX:
                 val = da[t] + raw[:, sl[t]][:, 0]
-                if t == "core_neutral_radius_nm":
-                    val = np.where(core_kept, np.clip(val, 0.0, sub.values["core_radius_nm"]), 0.0)
-                elif t == "shell_neutral_nm":
-                    val = np.where(shell_kept, np.clip(val, 0.0, sub.values["shell_thickness_nm"]), 0.0)
+                for col, dim, kept in (("core_neutral_radius_nm", "core_radius_nm", core_kept),
+                                       ("shell_neutral_nm", "shell_thickness_nm", shell_kept)):
+                    if t == col:
+                        flag |= kept & (val < MIN_NEUTRAL_NM)
+                        val = np.where(kept, np.clip(val, MIN_NEUTRAL_NM, sub.values[dim]), 0.0)
                 out[t][rows] = val
-            flag = p.max(1) < CONFIRM_PROB
             if second_opinion:
                 gm, gs = self.gp_.predict((X - self.gp_mean_) / self.gp_scale_)
                 gv = da["vbi_V"] + gm

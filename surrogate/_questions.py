@@ -248,7 +248,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
 
 
 def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_min: float | None = 0.9,
-           vbi_min_V: float | None = None, regimes=None, candidates: int = 1_000_000, top: int = 5, seed: int = 0,
+           vbi_min_V: float | None = None, regimes=None, candidates: int = 200_000, top: int = 5, seed: int = 0,
            engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", confirm: bool = True,
            progress=None) -> dict:
     """The best designs among ``candidates`` random ones under a V_bi target.

@@ -8,15 +8,36 @@ per tree: ``roots`` (int32) and ``tree_class`` (int32); per output: ``baseline``
 The raw score of output k is baseline[k] + the sum of the leaf values of the trees of class k
 (the additive model of Friedman, Ann. Statist. 29, 1189 (2001), doi:10.1214/aos/1013203451).
 
-Evaluation: a level-synchronous walk of all trees at once in numpy, at every batch size. No
-other library is imported: a bundle answers wherever numpy runs.
+Evaluation, numpy only (a bundle answers wherever numpy runs): small batches by a
+level-synchronous walk of all trees at once; batches of ``BITVECTOR_MIN_ROWS`` rows or more by
+exit-leaf bitvectors (``_bitvector``), chunk by chunk over ``threads()`` worker threads (numpy
+releases the interpreter lock in the array work). Both give the same leaves, hence the same sums.
 """
 
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 
-NUMPY_CHUNK = 1 << 17  #: rows x trees per numpy step
+NUMPY_CHUNK = 1 << 17  #: rows x trees per numpy step of the walk
+BITVECTOR_MIN_ROWS = 256  #: batches at least this large use the bitvector tables (built on first use)
+BITVECTOR_CHUNK = 1024  #: rows per bitvector step: keeps the (rows, trees) words in cache
+MAX_THREADS = 8
+
+
+def threads(explicit: int | None = None) -> int:
+    """Worker threads for large batches: ``explicit``, else $RADIALPN_THREADS, else
+    $OMP_NUM_THREADS, else the number of cores (at most ``MAX_THREADS``). One thread per chunk
+    of rows; nothing inside a chunk runs in parallel, so threads never oversubscribe cores."""
+    for value in (explicit, os.environ.get("RADIALPN_THREADS"), os.environ.get("OMP_NUM_THREADS")):
+        try:
+            if value is not None and int(value) >= 1:
+                return min(int(value), MAX_THREADS)
+        except (TypeError, ValueError):
+            continue
+    return max(1, min(os.cpu_count() or 1, MAX_THREADS))
 
 
 class TreeEnsemble:
@@ -43,6 +64,7 @@ class TreeEnsemble:
         self.child = np.ascontiguousarray(np.column_stack([self.left, self.right]))  # [node, go right]
         self.onehot = np.zeros((self.roots.size, self.baseline.size))
         self.onehot[np.arange(self.roots.size), self.tree_class] = 1.0
+        self._tables = None  # exit-leaf bitvector tables, built on the first large batch
 
     @classmethod
     def stack(cls, ensembles) -> "TreeEnsemble":
@@ -92,6 +114,28 @@ class TreeEnsemble:
             out[s:s + step] = self.value[node] @ self.onehot + self.baseline
         return out
 
-    def raw(self, X: np.ndarray) -> np.ndarray:
-        """Raw scores (n, n_outputs)."""
-        return self.raw_numpy(X)
+    def raw(self, X: np.ndarray, n_threads: int | None = None) -> np.ndarray:
+        """Raw scores (n, n_outputs): the walk for small batches and rows with missing values,
+        the bitvector tables (same leaves) for large ones, over ``threads(n_threads)``."""
+        X = np.ascontiguousarray(X, dtype=np.float64)
+        n = X.shape[0]
+        if n < BITVECTOR_MIN_ROWS or np.isnan(X).any():
+            return self.raw_numpy(X)
+        if self._tables is None:
+            from ._bitvector import ExitLeafTables
+
+            self._tables = ExitLeafTables(self, X.shape[1])
+        out = np.empty((n, self.n_outputs))
+
+        def work(s):
+            out[s:s + BITVECTOR_CHUNK] = self._tables.leaf_values(X[s:s + BITVECTOR_CHUNK]) @ self.onehot + self.baseline
+
+        starts = range(0, n, BITVECTOR_CHUNK)
+        k = min(threads(n_threads), len(starts))
+        if k > 1:
+            with ThreadPoolExecutor(k) as pool:
+                list(pool.map(work, starts))
+        else:
+            for s in starts:
+                work(s)
+        return out

@@ -181,8 +181,12 @@ def test_ask_defaults_to_surrogate_with_interval_and_verify():
 def test_ask_outside_domain_no_answer():
     argv = list(SURR)
     argv[argv.index("45nm")] = "800nm"
-    code, text, _ = run(argv)
-    assert code == 3 and "outside the model's domain" in " ".join(text.split())
+    code, text, _ = run(argv + ["--engine", "surrogate"])
+    text = " ".join(text.split())
+    assert code == 3 and "outside the model's domain" in text and "engine 'auto' or 'solver' answers it" in text
+    code, text, _ = run(argv)  # the default (auto) engine answers it with the solver and says so
+    text = " ".join(text.split())
+    assert code == 0 and "by the solver engine" in text and "core_radius_nm 800 not in [10, 300]" in text
 
 
 def test_batch_surrogate_second_opinion(tmp_path):
@@ -190,7 +194,7 @@ def test_batch_surrogate_second_opinion(tmp_path):
     src.write_text("name,material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
                    "a,GaAs,p,60,40,1e18,1e18,1e12\nb,GaAs,n,45,30,5e17,2e18,5e12\nc,GaAs,p,900,40,1e18,1e18,1e12\n"
                    "d,Si,p,60,40,1e18,1e18,1e12\n")
-    code, _, out = run(["batch", str(src), "--second-opinion", "--keep-going"])
+    code, _, out = run(["batch", str(src), "--engine", "surrogate", "--second-opinion", "--keep-going"])
     got = list(csv.DictReader(io.StringIO(out)))
     assert code == 0 and [g["name"] for g in got] == ["a", "b", "c", "d"]
     assert got[0]["in_domain"] == "true" and float(got[0]["vbi_gp_V"]) > 0 and got[0]["status"] == "ok"

@@ -54,7 +54,7 @@ def test_size_critical_shell_confirmed_by_solver():
     # miss it 1 nm below: the surrogate's p99 V_bi error (~8 mV) moves the edge well under 1 nm.
     base = dict(material="GaAs", core_type="p", core_radius_nm=60.0, core_doping_cm3=2e18, shell_doping_cm3=2e18,
                 dit_cm2eV=5e12)
-    res = radialpn.critical_dimensions(base, fraction_min=0.9, confirm=False)
+    res = radialpn.critical_dimensions(base, fraction_min=0.9, confirm=False, engine="surrogate")
     assert res["scan_ranges_nm"]["shell_thickness_nm"] == (2.0, 300.0)  # the GaAs bundles' trained domain
     r = {k: res["shell_thickness_nm"][f"{k}_nm"] for k in ("value", "optimistic", "conservative")}
     # interval ends come from the 1200-point log scan (steps of 0.42 % over 2-300 nm), the value

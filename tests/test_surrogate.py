@@ -127,7 +127,7 @@ def test_predict_api_forms_and_columns(shipped):
 
 
 def test_outside_domain_flagged_not_extrapolated(shipped):
-    out = radialpn.predict([dict(DESIGN, core_radius_nm=800.0), dict(DESIGN, material="Si"), DESIGN])
+    out = radialpn.predict([dict(DESIGN, core_radius_nm=800.0), dict(DESIGN, material="Si"), DESIGN], engine="surrogate")
     assert not out["in_domain"][0] and "core_radius_nm 800 not in [10, 300]" in out["status"][0]
     assert np.isnan(out["vbi_V"][0]) and out["regime"][0] == ""
     assert "no surrogate bundle for Si" in out["status"][1] and out["status"][2] == "ok"

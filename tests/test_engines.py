@@ -1,0 +1,91 @@
+"""The default engine: surrogate answers inside physical bounds and consistent with themselves,
+the auto engine answering every valid row (solver where no bundle is validated), and the
+large-batch tree evaluator giving exactly the walk's leaves."""
+
+import numpy as np
+import pytest
+
+import radialpn
+from radialpn.training import TreeEnsemble, export_hgb
+
+REGIMES = radialpn.REGIMES
+
+
+def _uniform_in_domain(n, seed, core_type="p"):
+    # uniform over the GaAs bundles' trained domain (models/specs/gaas-*.toml), log for sizes,
+    # dopings and D_it as the specs sample them
+    rng = np.random.default_rng(seed)
+    lg = lambda lo, hi: 10 ** rng.uniform(np.log10(lo), np.log10(hi), n)  # noqa: E731
+    return dict(material="GaAs", core_type=core_type, core_radius_nm=lg(10, 300), shell_thickness_nm=lg(2, 300),
+                core_doping_cm3=lg(1e16, 1e19), shell_doping_cm3=lg(1e16, 1e19), dit_cm2eV=lg(1e10, 1e14),
+                cnl_eV=rng.uniform(0.3, 0.7, n), temperature_K=rng.uniform(250, 400, n))
+
+
+@pytest.mark.slow
+def test_surrogate_never_breaks_physical_bounds_or_its_own_regime():
+    # Property over 100,000 uniform in-domain designs (both core types): 0 <= V_bi <= V_bi0 for
+    # the estimate and both interval ends (a depleting surface cannot raise the barrier above the
+    # bulk one; docs/physics.md section 7), and the neutral extents agree with the regime (zero
+    # exactly where the regime empties a region, positive where it keeps one).
+    for core_type, seed in (("p", 1), ("n", 2)):
+        out = radialpn.predict(_uniform_in_domain(50_000, seed, core_type), engine="surrogate")
+        ok = out["status"] == "ok"
+        assert ok.mean() > 0.99
+        v, v0, lo, hi = (out[k][ok] for k in ("vbi_V", "vbi0_V", "vbi_low_V", "vbi_high_V"))
+        assert (lo >= 0).all() and (lo <= v).all() and (v <= hi).all() and (hi <= v0).all()
+        regime = out["regime"][ok]
+        core_kept = np.isin(regime, ("both-neutral", "shell-depleted"))
+        shell_kept = np.isin(regime, ("both-neutral", "core-depleted"))
+        core, shell = out["core_neutral_radius_nm"][ok], out["shell_neutral_nm"][ok]
+        assert ((core > 0) == core_kept).all() and ((shell > 0) == shell_kept).all()
+
+
+def test_auto_answers_every_valid_row_and_says_which_engine():
+    rows = [dict(material="GaAs", core_type="p", core_radius_nm=60, shell_thickness_nm=45, core_doping_cm3=2e18,
+                 shell_doping_cm3=2e18, dit_cm2eV=5e12)]
+    rows += [dict(rows[0], material="Si"), dict(rows[0], temperature_K=77), dict(rows[0], dit_cm2eV=0),
+             dict(rows[0], core_radius_nm=-1)]
+    out = radialpn.predict(rows)
+    assert list(out["engine"][:4]) == ["surrogate", "solver", "solver", "solver"]
+    assert (out["status"][:4] == "ok").all() and np.isfinite(out["vbi_V"][:4]).all()
+    assert out["engine_note"][0] == "" and "no surrogate bundle for Si" in out["engine_note"][1]
+    assert "temperature_K 77" in out["engine_note"][2] and "dit_cm2eV 0" in out["engine_note"][3]
+    assert out["status"][4].startswith("core_radius_nm: allowed range")  # invalid rows stay refused
+    # the solver rows are the solver's own answers (same inputs, same code): exact
+    ref = radialpn.solve(rows[1:4])
+    np.testing.assert_array_equal(out["vbi_V"][1:4], ref["vbi_V"])
+    only = radialpn.predict(rows[1:2], engine="surrogate")
+    assert "engine 'auto' or 'solver' answers it" in only["status"][0]
+
+
+def test_confirm_reanswers_flagged_rows_with_the_solver():
+    d = _uniform_in_domain(400, 5)
+    plain = radialpn.predict(d)
+    flagged = plain["confirm_with_solver"] & (plain["status"] == "ok")
+    assert flagged.any()  # near-boundary designs exist in 400 uniform draws (about 5 % flagged)
+    conf = radialpn.predict(d, confirm=True)
+    assert (conf["engine"][flagged] == "solver").all() and (conf["engine"][~flagged & (plain["status"] == "ok")]
+                                                           == "surrogate").all()
+    assert all("re-answered" in s for s in conf["engine_note"][flagged])
+
+
+def test_bitvector_evaluator_gives_the_walks_leaves():
+    # Same leaves, so the same sums: 1e-12 absolute (float64 sums of <= 200 leaf values of
+    # order 1, in the same order). Rows placed exactly on split thresholds check the tie rule
+    # (x == threshold goes left, as scikit-learn's x <= threshold does).
+    from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
+
+    rng = np.random.default_rng(3)
+    X = rng.normal(size=(4000, 6))
+    y = X[:, 0] * X[:, 1] + np.sin(3 * X[:, 2]) + 0.1 * rng.normal(size=4000)
+    reg = HistGradientBoostingRegressor(max_iter=60, max_leaf_nodes=127, max_depth=12).fit(X, y)
+    clf = HistGradientBoostingClassifier(max_iter=15, max_leaf_nodes=63).fit(X, np.digitize(y, [-1, 0, 1]))
+    for est in (reg, clf):
+        ens = TreeEnsemble(export_hgb(est))
+        inner = ens.left != np.arange(ens.feature.size)
+        Z = rng.normal(size=(3000, 6))
+        pick = rng.choice(np.flatnonzero(inner), 3000)
+        Z[np.arange(3000), ens.feature[pick]] = ens.threshold[pick]  # exactly on a threshold
+        for A in (X[:3000], Z):
+            np.testing.assert_allclose(ens.raw(A), ens.raw_numpy(A), rtol=0, atol=1e-12)
+        np.testing.assert_allclose(ens.raw(X, n_threads=2), ens.raw_numpy(X), rtol=0, atol=1e-12)
