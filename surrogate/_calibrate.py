@@ -33,7 +33,7 @@ import numpy as np
 
 from . import _ensemble
 from ._design import INPUT_COLUMNS, REGIMES, _as_columns, _blank, normalize_designs
-from ._emulator import MODEL_SD, QUANTITIES, CalibrationError, Table
+from ._emulator import COLUMNS, MODEL_SD, QUANTITIES, CalibrationError, Table
 from ._engines import answer, check_engine, solve
 from ._errors import DesignError
 from ._materials import get_material
@@ -188,22 +188,25 @@ class Posterior:
         return sum(p.log_prior(theta[..., j]) for j, p in enumerate(self.params))
 
     def log_likelihood(self, theta):
-        v = self.table.interpolate(theta)  # (E, m, n, Q)
+        seen_q = [q for q in CONTINUOUS if np.isfinite(self.y[q]).any()]
+        cols = [COLUMNS.index(c) for c in ("vbi_sd_V", "p_both", "p_core_depleted", "p_shell_depleted", "p_all_depleted")]
+        cols += [COLUMNS.index(q) for q in seen_q] + [COLUMNS.index(q + "_interp_sd") for q in seen_q]
+        v = self.table.interpolate(theta, cols)  # (E, m, n, len(cols))
         ll = np.zeros(v.shape[:-1])
-        for q in CONTINUOUS:
+        k = len(seen_q)
+        for j, q in enumerate(seen_q):
             y, s = self.y[q], self.s[q]
             seen = np.isfinite(y)
-            if not seen.any():
-                continue
-            model = v[..., QUANTITIES.index(q)]
-            sd = v[..., 1] if q == "vbi_V" and self.sd["vbi_V"] is None else self.sd[q]
-            var = s * s + sd * sd
+            model, interp_sd = v[..., 5 + j], v[..., 5 + k + j]
+            sd = v[..., 0] if q == "vbi_V" and self.sd["vbi_V"] is None else self.sd[q]
+            var = s * s + sd * sd + interp_sd * interp_sd
             term = -0.5 * (np.where(seen, y, 0.0) - model) ** 2 / var - 0.5 * np.log(2 * np.pi * var)
             ll += np.where(seen, term, 0.0)
-        probs = v[..., 5:9]
+        probs = v[..., 1:5]
         if (self.regime >= 0).any():
-            p = np.take_along_axis(probs, np.maximum(self.regime, 0)[..., None].repeat(probs.shape[1], 1), -1)[..., 0]
-            ll += np.where(self.regime >= 0, np.log((1 - self.lapse) * p + self.lapse / 4), 0.0)
+            idx = np.broadcast_to(np.maximum(self.regime, 0)[..., None], probs.shape[:-1] + (1,))
+            p = np.take_along_axis(probs, idx, -1)[..., 0]
+            ll += np.where(self.regime >= 0, np.log((1 - self.lapse) * np.clip(p, 0, 1) + self.lapse / 4), 0.0)
         for f, yes_classes in FLAGS.items():
             flag = self.flags[f]
             if (flag >= 0).any():

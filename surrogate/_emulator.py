@@ -32,6 +32,9 @@ MIN_POINTS = 3  #: nodes per unknown at least
 MAX_NODES = 3_000_000  #: table rows (wires x nodes) above which a calibration is refused
 QUANTITIES = ("vbi_V", "vbi_sd_V", "surface_bending_V", "core_neutral_radius_nm", "shell_neutral_nm",
               "p_both", "p_core_depleted", "p_shell_depleted", "p_all_depleted")
+#: continuous quantities whose interpolation error is estimated and stored after QUANTITIES
+INTERPOLATED = ("vbi_V", "surface_bending_V", "core_neutral_radius_nm", "shell_neutral_nm")
+COLUMNS = QUANTITIES + tuple(q + "_interp_sd" for q in INTERPOLATED)
 #: 1-sigma model discrepancy to the reference solver per engine [V, V, nm, nm], measured on
 #: 1,500 random GaAs designs of each core type (rms of engine - solver; see docs/calibrate.md)
 MODEL_SD = {
@@ -75,8 +78,14 @@ class Table:
                     "cnl_eV", "temperature_K", "interlayer_nm"):
             if col in designs and designs[col].dtype == object:
                 designs[col] = designs[col].astype(float)
-        self.values = self._evaluate(designs, statistics, progress).reshape(self.n, nodes, len(QUANTITIES))
+        values = self._evaluate(designs, statistics, progress).reshape(self.n, nodes, len(QUANTITIES))
+        err = [interpolation_sd(values[..., QUANTITIES.index(q)].reshape(self.n, *self.points)).reshape(self.n, nodes)
+               for q in INTERPOLATED]
+        self.values = np.concatenate([values, np.stack(err, -1)], -1)
         self.nodes = nodes
+        bits = np.array(list(itertools.product((0, 1), repeat=self.D)))  # (2^D, D)
+        self.corner_bits = bits.astype(bool)
+        self.corner_offsets = (bits * self.strides).sum(1)
 
     def _evaluate(self, designs, statistics, progress):
         if self.engine == "surrogate":
@@ -99,17 +108,34 @@ class Table:
         cols = [res["vbi_V"], sd, res["surface_bending_V"], res["core_neutral_radius_nm"], res["shell_neutral_nm"]]
         return np.column_stack(cols + [probs[:, k] for k in range(4)]).astype(float)
 
-    def interpolate(self, theta: np.ndarray) -> np.ndarray:
-        """theta (..., P) in z -> quantities (..., n, Q), multilinear between grid nodes."""
+    def interpolate(self, theta: np.ndarray, columns=None) -> np.ndarray:
+        """theta (..., P) in z -> quantities (..., n, Q) (``columns``: indices into ``COLUMNS``,
+        default all), multilinear between grid nodes."""
         z = theta[..., self.dims]  # (..., n, D)
         t = np.clip((z - self.lo) / (self.hi - self.lo), 0.0, 1.0) * (self.points - 1)
         i0 = np.minimum(np.floor(t).astype(np.int64), self.points - 2)
         f = t - i0
         base = (i0 * self.strides).sum(-1)  # (..., n)
-        rows = np.arange(self.n)
-        out = 0.0
-        for corner in itertools.product((0, 1), repeat=self.D):
-            c = np.array(corner)
-            w = np.prod(np.where(c == 1, f, 1.0 - f), axis=-1)  # (..., n)
-            out = out + w[..., None] * self.values[rows, base + int((c * self.strides).sum())]
-        return out
+        w = np.where(self.corner_bits, f[..., None, :], 1.0 - f[..., None, :]).prod(-1)  # (..., n, 2^D)
+        vals = self.values if columns is None else self.values[..., columns]
+        picked = vals[np.arange(self.n)[:, None], base[..., None] + self.corner_offsets]  # (..., n, 2^D, Q)
+        return np.einsum("...c,...cq->...q", w, picked)
+
+
+def interpolation_sd(f: np.ndarray) -> np.ndarray:
+    """Local error estimate of multilinear interpolation at every node [unit of f]: sum over axes
+    of |second difference| / 8, the leading term of the linear-interpolation error h^2 |f''| / 8
+    (de Boor, A Practical Guide to Splines, rev. ed., 2001, ch. II eq. (18)); at a kink it is
+    the size of the kink's miss. ``f``: (n, p_1, ..., p_D); edges take their neighbour's value;
+    NaN where a node has no answer."""
+    out = np.zeros_like(f)
+    for ax in range(1, f.ndim):
+        d2 = np.abs(np.diff(f, 2, axis=ax)) / 8.0
+        pad = [(0, 0)] * f.ndim
+        pad[ax] = (1, 1)
+        d2 = np.pad(d2, pad, mode="edge")
+        # a cell's error shows at both its end nodes: take the larger of each node and its neighbours
+        lo = np.concatenate([np.take(d2, [0], axis=ax), np.take(d2, range(d2.shape[ax] - 1), axis=ax)], axis=ax)
+        hi = np.concatenate([np.take(d2, range(1, d2.shape[ax]), axis=ax), np.take(d2, [-1], axis=ax)], axis=ax)
+        out += np.maximum(np.maximum(lo, hi), d2)
+    return out
