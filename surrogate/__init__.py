@@ -25,6 +25,7 @@ from ._bundle import BundleError
 from ._calibrate import CAUTION as CALIBRATION_CAUTION, CONTINUOUS as OBSERVED_COLUMNS, FLAGS as _FLAGS
 from ._calibrate import calibrate as _calibrate, calibrate_many as _calibrate_many
 from ._emulator import CalibrationError
+from ._ensemble import autocorr_time, sample as ensemble_sample, split_rhat
 from ._design import (
     CORE_TYPES, INPUT_COLUMNS, OUTPUT_COLUMNS, REGIMES, DesignTable, check_design,
     NUMERIC as NUMERIC_COLUMNS,
@@ -110,7 +111,7 @@ def calibrate_many(observations, unknowns, by: str = "series", **options) -> lis
 OBSERVED_FLAGS = tuple(_FLAGS)
 
 __all__ = [
-    "calibrate", "calibrate_many", "CalibrationError", "CALIBRATION_CAUTION", "OBSERVED_COLUMNS", "OBSERVED_FLAGS",
+    "calibrate", "calibrate_many", "ensemble_sample", "split_rhat", "autocorr_time", "CalibrationError", "CALIBRATION_CAUTION", "OBSERVED_COLUMNS", "OBSERVED_FLAGS",
     "predict", "solve", "deplete", "profile", "regime_map", "critical_dimensions", "search", "spread",
     "depletion_profile", "target_text", "main_effects",
     "load", "load_bundle", "available", "SurrogateModel",
