@@ -94,6 +94,14 @@ def read_observations(observations, unknown_columns):
     bad = np.flatnonzero(table.status != "ok")
     if bad.size:
         raise DesignError(f"row {bad[0] + 1}", str(table.status[bad[0]]))
+    for i, r in enumerate(rows):  # validated numbers (units read) in place of the cells as given
+        for c in design_cols:
+            if c == "material":
+                r[c] = str(table.material[i])
+            elif c == "core_type":
+                r[c] = "p" if table.p_core[i] else "n"
+            elif not (c in unknown_columns and _blank(r[c])):
+                r[c] = float(table.values[c][i])
     obs = {}
     for q in CONTINUOUS:
         y, s = np.full(n, np.nan), np.full(n, np.nan)
