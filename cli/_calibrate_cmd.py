@@ -29,7 +29,7 @@ def register(sub) -> None:
                     help="design-table rows of the measured wires plus observed columns (vbi_V with vbi_V_sigma, "
                          "surface_bending_V, neutral extents, regime, shell_keeps_neutral, core_keeps_neutral); "
                          "a `series` column calibrates each series on its own")
-    sp.add_argument("--unknown", action="append", default=[], metavar="NAME[=PRIOR:A:B][,per-row]",
+    sp.add_argument("--unknown", action="append", default=[], metavar="NAME[=PRIOR:LOW:HIGH][,per-row]",
                     help="an unknown: dit, cnl, shell-doping or core-doping; prior log-uniform:LOW:HIGH, "
                          "uniform:LOW:HIGH, normal:MEAN:SD, log-normal:MEDIAN:SD_DEX (default: docs/calibrate.md); "
                          ",per-row for one per wire (repeatable)")
@@ -59,7 +59,7 @@ def parse_unknown(text: str):
         keys = {"log-uniform": ("low", "high"), "uniform": ("low", "high"), "normal": ("mean", "sd"),
                 "log-normal": ("median", "sd_dex")}
         if parts[0] not in keys or len(parts) != 3:
-            raise _errors.UsageError(f"--unknown: expected NAME=PRIOR:A:B with PRIOR one of {', '.join(keys)}, "
+            raise _errors.UsageError(f"--unknown: expected NAME=PRIOR:LOW:HIGH (or :MEAN:SD) with PRIOR one of {', '.join(keys)}, "
                                      f"e.g. dit=log-uniform:1e11:1e13 (got {text!r})")
         spec = {"prior": parts[0], keys[parts[0]][0]: parts[1], keys[parts[0]][1]: parts[2]}
         if parts[0] == "log-normal":
