@@ -14,6 +14,7 @@ carries the reason in ``status``.
     critical_dimensions  smallest core / thinnest shell that keep V_bi above a target (and sweeps)
     search               constrained search over many candidates, winners re-checked by the solver
     spread               growth-spread yield and what it is most sensitive to
+    calibrate            infer D_it, neutral level and dopings from measurements on a series
 
 Answers are design estimates, not measurements: confirm a design with measurements on grown
 wires before committing a growth campaign to it.
@@ -21,6 +22,10 @@ wires before committing a growth campaign to it.
 
 from . import _depletion, _engines
 from ._bundle import BundleError
+from ._calibrate import CAUTION as CALIBRATION_CAUTION, CONTINUOUS as OBSERVED_COLUMNS, FLAGS as _FLAGS
+from ._calibrate import calibrate as _calibrate, calibrate_many as _calibrate_many
+from ._emulator import CalibrationError
+from ._ensemble import autocorr_time, sample as ensemble_sample, split_rhat
 from ._design import (
     CORE_TYPES, INPUT_COLUMNS, OUTPUT_COLUMNS, REGIMES, DesignTable, check_design,
     NUMERIC as NUMERIC_COLUMNS,
@@ -72,7 +77,45 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     return _like_input(designs, _depletion.deplete(designs, statistics, threads))
 
 
+def calibrate(observations, unknowns, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac",
+              walkers: int | None = None, steps: int = 1500, burn: int = 500, seed: int = 0, recheck: bool = True,
+              critical: bool = True, reference_row: int = 1, fraction_min: float = 0.9, progress=None) -> dict:
+    """Infer unknown design columns of a measured series, with credible intervals (docs/calibrate.md).
+
+    ``observations``: rows of the design table (the known design of each wire) plus observed
+    columns ``vbi_V``, ``surface_bending_V`` [V], ``core_neutral_radius_nm``,
+    ``shell_neutral_nm`` [nm] each with ``<name>_sigma`` (1 sigma, same unit), ``regime`` and
+    yes/no ``shell_keeps_neutral``, ``core_keeps_neutral``; blank: not measured.
+    ``unknowns``: names (``"dit"``, ``"cnl"``, ``"shell-doping"``, ``"core-doping"`` or their
+    columns) or a mapping name -> prior spec (``{"prior": "log-uniform", "low": 1e11, "high":
+    1e13}``, ``{"prior": "normal", "mean": 0.5, "sd": 0.1}``, ``{"prior": "log-normal", "median":
+    2e18, "sd_dex": 0.15}``, None for the default; add ``"per_row": True`` for one per row).
+    ``engine`` tabulates the model over the prior support; ``steps``/``burn``/``walkers``
+    set the stretch-move sampler; ``recheck`` runs the reference solver at the posterior
+    median and a few draws; ``critical`` adds the critical core radius and shell thickness
+    [nm] of wire ``reference_row`` (1-based) for V_bi >= ``fraction_min`` V_bi0.
+
+    Returns ``unknowns`` (per parameter: ``median``, ``ci68``, ``ci95`` [column unit],
+    ``rhat``, ``autocorr_steps``, ``prior``), ``correlation`` (in log10 for D_it and dopings),
+    ``samples`` [column units], ``diagnostics``, ``recheck``, ``critical``, ``caution``,
+    ``seconds``. Inferred values are model-dependent estimates: confirm them by independent
+    measurement."""
+    return _calibrate(observations, unknowns, engine, statistics, walkers, steps, burn, seed, recheck, critical,
+                      reference_row, fraction_min, progress)
+
+
+def calibrate_many(observations, unknowns, by: str = "series", **options) -> list:
+    """``calibrate`` for each series (rows sharing a value of column ``by``), in order of first
+    appearance; series with identical known designs share one model table and one vectorised
+    sampler run. ``options``: those of ``calibrate``. Returns a list of results, each with
+    ``series``."""
+    return _calibrate_many(observations, unknowns, by, **options)
+
+
+OBSERVED_FLAGS = tuple(_FLAGS)
+
 __all__ = [
+    "calibrate", "calibrate_many", "ensemble_sample", "split_rhat", "autocorr_time", "CalibrationError", "CALIBRATION_CAUTION", "OBSERVED_COLUMNS", "OBSERVED_FLAGS",
     "predict", "solve", "deplete", "profile", "regime_map", "critical_dimensions", "search", "spread",
     "depletion_profile", "target_text", "main_effects",
     "load", "load_bundle", "available", "SurrogateModel",

@@ -20,6 +20,8 @@ CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for th
 MIN_NEUTRAL_NM = 0.05  #: a region the regime keeps is reported with at least this neutral extent [nm]
 DOMAIN_SLACK = 0.05  #: a bundle's domain may exceed its fitted data's span by this share of it
 AUX = ("core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V")
+#: per-regime probabilities (opt-in ``class_probs``), in the order of ``REGIMES``
+PROB_COLUMNS = tuple("prob_" + r.replace("-", "_") for r in REGIMES)
 _cache: dict = {}
 
 
@@ -106,13 +108,15 @@ class SurrogateModel:
             why[bad] = f"outside the model's domain: {col} must be {float(v):g}"
         return why
 
-    def predict(self, designs, second_opinion: bool = False) -> dict:
+    def predict(self, designs, second_opinion: bool = False, class_probs: bool = False) -> dict:
         """Answer designs (mapping of column -> array, list of row dicts, or DataFrame).
 
         Returns a mapping of output columns to numpy arrays, one entry per input row.
         ``second_opinion``: also evaluate the Gaussian process (``vbi_gp_V``, ``vbi_gp_low_V``,
         ``vbi_gp_high_V``) and flag designs where it disagrees with the trees; slower in large
         batches (about 2e4 rows/s against 1e5 without; benchmarks/bench_surrogate.py).
+        ``class_probs``: also return the probability of each regime, ``PROB_COLUMNS`` [1]
+        (the temperature-scaled softmax whose maximum is ``regime_prob``).
         """
         table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
         n = table.n
@@ -126,6 +130,7 @@ class SurrogateModel:
         regime = np.full(n, "", dtype=object)
         confirm = np.zeros(n, dtype=bool)
         gp_cols = {k: np.full(n, np.nan) for k in ("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V")} if second_opinion else {}
+        prob_cols = {k: np.full(n, np.nan) for k in PROB_COLUMNS} if class_probs else {}
         rows = np.flatnonzero(in_domain)
         if rows.size:
             sub = table.take(rows)
@@ -147,6 +152,8 @@ class SurrogateModel:
             names = np.array(REGIMES, dtype=object)
             regime[rows] = names[code]
             out["regime_prob"][rows] = p.max(1)
+            for k, col in enumerate(prob_cols.values()):
+                col[rows] = p[:, k]
             out["vbi_V"][rows] = vbi
             out["vbi_low_V"][rows] = np.clip(centre - half, 0.0, vbi0)
             out["vbi_high_V"][rows] = np.clip(centre + half, 0.0, vbi0)
@@ -174,14 +181,14 @@ class SurrogateModel:
             bad = rows[~good]
             if bad.size:
                 status[bad] = "surrogate: the depletion features are undefined for this design; use the solver"
-                for v in list(out.values()) + list(gp_cols.values()):
+                for v in list(out.values()) + list(gp_cols.values()) + list(prob_cols.values()):
                     v[bad] = np.nan
                 regime[bad] = ""
         return {"regime": regime, **{k: out[k] for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm",
                                                            "shell_neutral_nm", "surface_bending_V")},
                 "engine": np.full(n, "surrogate", dtype=object), "status": status, "regime_prob": out["regime_prob"],
                 "vbi_low_V": out["vbi_low_V"], "vbi_high_V": out["vbi_high_V"], "in_domain": in_domain,
-                "confirm_with_solver": confirm, **gp_cols}
+                "confirm_with_solver": confirm, **gp_cols, **prob_cols}
 
 
 FEATURE_INDEX = {"core_radius_nm": 0, "shell_thickness_nm": 1, "core_doping_cm3": 2, "shell_doping_cm3": 3,
@@ -277,9 +284,9 @@ def available() -> list:
     return out
 
 
-def predict_bundles(designs, second_opinion: bool = False) -> dict:
+def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = False) -> dict:
     """Answer designs of any material/core type with the matching bundles (rows without one
-    get a status)."""
+    get a status). ``class_probs`` adds ``PROB_COLUMNS``."""
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     n = table.n
     result = None
@@ -291,16 +298,16 @@ def predict_bundles(designs, second_opinion: bool = False) -> dict:
         except BundleError as exc:
             part = {"status": np.full(sel.size, str(exc), dtype=object)}
         else:
-            part = model.predict(table.take(sel), second_opinion)
+            part = model.predict(table.take(sel), second_opinion, class_probs)
         if result is None:
-            result = empty_result(n, second_opinion, table.status)
+            result = empty_result(n, second_opinion, table.status, class_probs)
         for k, v in part.items():
             if k in result:
                 result[k][sel] = v
-    return result if result is not None else empty_result(n, second_opinion, table.status)
+    return result if result is not None else empty_result(n, second_opinion, table.status, class_probs)
 
 
-def empty_result(n, second_opinion, status):
+def empty_result(n, second_opinion, status, class_probs=False):
     """Surrogate output columns with no answers (NaN, "", False), ``status`` copied."""
     cols = {"regime": np.full(n, "", dtype=object)}
     for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V"):
@@ -310,4 +317,6 @@ def empty_result(n, second_opinion, status):
                 confirm_with_solver=np.zeros(n, dtype=bool))
     if second_opinion:
         cols.update({k: np.full(n, np.nan) for k in ("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V")})
+    if class_probs:
+        cols.update({k: np.full(n, np.nan) for k in PROB_COLUMNS})
     return cols
