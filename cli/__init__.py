@@ -48,6 +48,13 @@ def main(argv=None, console=None, out=None, stdin=None) -> int:
 
     out = out if out is not None else sys.stdout
     err_console = Console(stderr=True, highlight=False) if console is None else console
+    if argv is None:  # the command line: SIGTERM stops a run as Ctrl-C does (outputs cleaned, exit 130)
+        import signal
+
+        def _stop(signum, frame):
+            raise KeyboardInterrupt
+
+        signal.signal(signal.SIGTERM, _stop)
     try:
         parser = build_parser()
         args = parser.parse_args(argv)

@@ -76,11 +76,23 @@ class _Terminated(BaseException):
     """SIGTERM arrived while a file was being written."""
 
 
+def _open_temp(folder: str):
+    """(fd, name) of a new file in ``folder``; on Linux an unnamed one (O_TMPFILE, name None),
+    so that even SIGKILL leaves nothing behind; elsewhere a hidden named temporary file."""
+    if hasattr(os, "O_TMPFILE") and os.path.isdir("/proc/self/fd"):
+        try:
+            return os.open(folder, os.O_TMPFILE | os.O_WRONLY, 0o644), None
+        except OSError:  # a file system without unnamed files
+            pass
+    return tempfile.mkstemp(prefix=".radialpn-", suffix=".part", dir=folder)
+
+
 @contextlib.contextmanager
 def atomic_text(target: str, option: str):
     """Write text to ``target`` all or nothing: yields a file object on a temporary file in the
     target's folder, renamed onto ``target`` when the block ends normally; on any error, Ctrl-C
-    or SIGTERM the temporary file is removed and ``target`` is left as it was."""
+    or SIGTERM the temporary file is removed and ``target`` is left as it was (on Linux the
+    temporary file has no name until the end, so SIGKILL leaves nothing either)."""
     path = os.path.abspath(target)
     folder = os.path.dirname(path)
     if os.path.isdir(path):
@@ -90,7 +102,7 @@ def atomic_text(target: str, option: str):
     if not os.path.isdir(folder):
         raise _errors.UsageError(f"{option} {target}: folder {folder} does not exist")
     try:
-        fd, tmp = tempfile.mkstemp(prefix=".radialpn-", suffix=".part", dir=folder)
+        fd, tmp = _open_temp(folder)
     except OSError as exc:
         raise _errors.UsageError(f"{option} {target}: cannot write in {folder} ({exc.strerror})") from None
     previous = None
@@ -105,6 +117,11 @@ def atomic_text(target: str, option: str):
     try:
         with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
             yield fh
+            fh.flush()
+            if tmp is None:  # an unnamed file (O_TMPFILE): give it a name only now, then rename
+                named = os.path.join(folder, f".radialpn-{os.getpid()}-{id(fh):x}.part")
+                os.link(f"/proc/self/fd/{fh.fileno()}", named)
+                tmp = named
         os.replace(tmp, path)
         tmp = None
     except OSError as exc:

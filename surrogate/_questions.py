@@ -381,6 +381,10 @@ def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, f
     n = _check_count("samples", samples, 1000, 20_000_000)
     seed = _check_count("seed", seed, 0, 2**63 - 1)
     nominal = design_row(design)
+    if "cnl_eV" in parsed and "cnl_eV" not in nominal:  # the material's own neutral level is the nominal
+        from ._materials import get_material
+
+        nominal["cnl_eV"] = get_material(nominal["material"]).cnl_eV
     missing = [c for c in parsed if c not in nominal]
     if missing:
         raise DesignError(missing[0], "a spread needs the nominal value in the design")

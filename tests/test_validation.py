@@ -148,10 +148,39 @@ def test_design_questions_refuse_bad_arguments():
                  lambda: radialpn.search(DESIGN, {"shell_thickness_nm": (2, 100)}, seed=-1),
                  lambda: radialpn.spread(DESIGN, {"shell_thickness_nm": "-2nm"}),
                  lambda: radialpn.spread(DESIGN, {"core_radius_nm": "inf%"}),
-                 lambda: radialpn.spread(DESIGN, {"cnl_eV": "0.1"}),
                  lambda: radialpn.critical_dimensions(DESIGN, fraction_min=1.5),
                  lambda: radialpn.predict(DESIGN, engine="quantum")):
         with pytest.raises(radialpn.DesignError):
             call()
+    # a spread of the neutral level without one given spreads about the material's own (0.5 eV for
+    # GaAs in the material table)
+    assert radialpn.spread(DESIGN, {"cnl_eV": "0.05"}, samples=1000)["answered"] == 1000
     m = radialpn.regime_map(DESIGN, ("dit_cm2eV", 0, 1e13, "linear"), ("core_radius_nm", 20, 150), (3, 2))
     assert m["x_values"][0] == 0.0 and m["regime"].shape == (2, 3)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("sig", ["SIGTERM", "SIGKILL"])
+def test_a_signal_during_batch_output_leaves_no_file(tmp_path, sig):
+    # 300,000 rows take a few seconds to read, answer and write: a signal after 1.5 s lands in
+    # the middle. Whatever phase it hits, the folder must hold only the input afterwards.
+    import os
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    src = tmp_path / "in.csv"
+    with open(src, "w") as fh:
+        fh.write(HEADER + "\n" + "GaAs,p,60,45,2e18,2e18,5e12\n" * 300_000)
+    proc = subprocess.Popen([sys.executable, "-m", "radialpn.cli", "batch", str(src), "-o", str(tmp_path / "out.csv"),
+                             "--engine", "depletion"], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    time.sleep(1.5)
+    proc.send_signal(getattr(signal, sig))
+    _, err = proc.communicate(timeout=60)
+    names = sorted(p.name for p in tmp_path.iterdir())
+    assert names in (["in.csv"], ["in.csv", "out.csv"])  # nothing partial: no output, or the whole of it
+    if names == ["in.csv", "out.csv"]:
+        assert sum(1 for _ in open(tmp_path / "out.csv")) == 300_001
+    if sig == "SIGTERM" and proc.returncode != 0:
+        assert proc.returncode == 130 and b"Traceback" not in err
