@@ -159,7 +159,8 @@ def test_accumulating_surface_keeps_shell_neutral():
     # at the surface, so the n-shell stays neutral up to R and the bands bend down (bending < 0).
     # V_bi leaves the accumulation layer out (docs/physics.md section 8.6): it stays at V_bi0
     # within 1 mV (the bound of issue 10), and the layer's share is reported on its own.
-    out = solve(dict(material="InAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30,
+    # (core and shell thick enough, 200 and 100 nm, that neither is emptied by the junction)
+    out = solve(dict(material="InAs", core_type="p", core_radius_nm=200, shell_thickness_nm=100,
                      core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e12))
     assert out["status"][0] == "ok"
     assert out["shell_majority_ln"][0] > 0 and out["surface_bending_V"][0] < 0

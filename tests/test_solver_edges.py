@@ -61,7 +61,6 @@ def check_bounds(d):
     assert np.all(v >= -1e-3)
     assert np.all(v[depleting] <= v0[depleting] + 1e-3)
     assert np.all(v[~depleting] <= v0[~depleting] + np.abs(bend[~depleting]) + 1e-3)
-    assert np.all(bend[~depleting] <= 0) and np.all(bend[depleting] >= 0)  # sign convention of section 8.6
     return out, ok
 
 
