@@ -171,3 +171,29 @@ def test_matches_independent_fermi_dirac_solve_bvp(case):
     shell = r >= a
     want_bend = 0.0 if dit == 0 else float(y[shell].max() - y[-1])  # depleting surfaces: max nearest R
     assert got["surface_bending_V"][0] == pytest.approx(want_bend, abs=1e-4)
+
+
+def test_peak_field_and_tunnelling_estimate():
+    # Planar abrupt junction at micrometre radii: peak field sqrt(2 q N_A N_D (V_bi0 - 2kT/q) /
+    # (eps (N_A + N_D))) (Sze & Ng, 3rd ed., sec. 2.2, depletion approximation with the 2kT/q
+    # majority-tail term); 2 %: the remaining tail corrections and the 5 um curvature.
+    from scipy.constants import e, epsilon_0, hbar, k, m_e, h
+
+    g = get_material("GaAs")
+    na = nd = 1e18
+    out = solve(dict(material="GaAs", core_type="p", core_radius_nm=5000, shell_thickness_nm=5000, core_doping_cm3=na,
+                     shell_doping_cm3=nd, dit_cm2eV=0.0), "boltzmann")
+    kt = k * 300 / e
+    eps = g.permittivity_rel * epsilon_0
+    want = math.sqrt(2 * e * na * nd * 1e6 * (out["vbi0_V"][0] - 2 * kt) / (eps * (na + nd))) / 100  # [V/cm]
+    assert out["peak_field_V_per_cm"][0] == pytest.approx(want, rel=0.02)
+    # Kane's exponent recomputed with scipy.constants (CODATA) and the DOS masses from N_c, N_v:
+    # same formula, independent constants and arithmetic, so 1e-9 relative.
+    n0 = 2 * (2 * math.pi * m_e * k * 300 / h ** 2) ** 1.5 * 1e-6
+    me, mh = (g.nc_300_cm3 / n0) ** (2 / 3), (g.nv_300_cm3 / n0) ** (2 / 3)
+    f0 = math.pi * math.sqrt(me * mh / (me + mh) * m_e) * (g.band_gap_300_eV * e) ** 1.5 / (2 * math.sqrt(2) * e * hbar)
+    assert out["tunnel_log10"][0] == pytest.approx(-f0 / (out["peak_field_V_per_cm"][0] * 100) / math.log(10), rel=1e-9)
+    # a 1e19/1e19 junction has a field several times higher: the indicator rises past the threshold
+    hot = solve(dict(material="GaAs", core_type="p", core_radius_nm=500, shell_thickness_nm=500, core_doping_cm3=1e19,
+                     shell_doping_cm3=1e19, dit_cm2eV=0.0))
+    assert hot["tunnel_log10"][0] > -10 > out["tunnel_log10"][0]
