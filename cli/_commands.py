@@ -24,7 +24,8 @@ from ._render import CAUTION, answer_table, design_line, verify_line
 EXTRA_OUTPUTS = ("regime_prob", "vbi_low_V", "vbi_high_V", "in_domain", "confirm_with_solver",  # surrogate
                  "vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V",
                  "core_margin", "shell_margin", "junction_edge_nm",  # depletion engine
-                 "core_majority_ln", "shell_majority_ln", "charge_residual", "iterations", "solver_version",  # solver
+                 "core_majority_ln", "shell_majority_ln", "charge_residual", "surface_accumulation_V",  # solver
+                 "peak_field_V_per_cm", "tunnel_log10", "iterations", "solver_version",
                  "engine_note")  # auto: why the solver answered a row
 
 
