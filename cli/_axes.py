@@ -50,6 +50,7 @@ def axis_spec(text: str, option: str, scaled: bool = False):
 
 
 def fmt_value(col: str, x: float) -> str:
-    if col in ("core_doping_cm3", "shell_doping_cm3", "dit_cm2eV"):
-        return f"{x:.2g}"
-    return f"{x:.3g}"
+    """A design variable's value as tables and axes print it (cli/_format.py's precision)."""
+    from ._format import quantity
+
+    return quantity(col, x)
