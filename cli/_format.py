@@ -31,6 +31,12 @@ def nm(x, unit: bool = True) -> str:
     return f"{float(f'{float(x):.3g}'):g}" + (" nm" if unit else "")
 
 
+def nm_range(lo, hi) -> str:
+    """A range of lengths [nm], one value when both print alike."""
+    a, b = nm(lo, unit=False), nm(hi, unit=False)
+    return f"{a} nm" if a == b else f"{a}–{b} nm"
+
+
 def density(x) -> str:
     """Dopings [cm^-3] and D_it [cm^-2 eV^-1] in two significant figures, compact exponent
     (5e17, 2.5e12); zero prints as 0."""

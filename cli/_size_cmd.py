@@ -107,7 +107,7 @@ def cmd_size(args, console, out) -> int:
         if not math.isfinite(r["optimistic_nm"]) or r["optimistic_nm"] == r["conservative_nm"]:
             rng = "no interval" if args.engine != "surrogate" else F.nm(r["value_nm"])
         else:
-            rng = f"{F.nm(r['optimistic_nm'], False)}–{F.nm(r['conservative_nm'])}"
+            rng = F.nm_range(r["optimistic_nm"], r["conservative_nm"])
         check = Text("not checked (--no-confirm)" if args.no_confirm else "")
         if r["confirmed"] is not None:
             check = Text("✓ confirmed" if r["confirmed"] else "✗ not confirmed",

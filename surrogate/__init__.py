@@ -14,6 +14,7 @@ carries the reason in ``status``.
     critical_dimensions  smallest core / thinnest shell that keep V_bi above a target (and sweeps)
     search               constrained search over many candidates, winners re-checked by the solver
     spread               growth-spread yield and what it is most sensitive to
+    review               all of the above for one wire (the design-review sheet's content)
 
 Answers are design estimates, not measurements: confirm a design with measurements on grown
 wires before committing a growth campaign to it.
@@ -36,6 +37,7 @@ from ._materials import (
 from ._model import SurrogateModel, available, load, load_bundle
 from ._profiles import depletion_profile
 from ._questions import critical_dimensions, profile, regime_map, search, spread, target_text
+from ._review import DEFAULT_SPREADS, review
 from ._search import main_effects
 from ._statistics import STATISTICS, fermi_half, fermi_half_inverse, intrinsic_density, reduced_level
 
@@ -70,7 +72,7 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
 
 __all__ = [
     "predict", "solve", "deplete", "profile", "regime_map", "critical_dimensions", "search", "spread",
-    "depletion_profile", "target_text", "main_effects",
+    "depletion_profile", "target_text", "main_effects", "review", "DEFAULT_SPREADS",
     "load", "load_bundle", "available", "SurrogateModel",
     "check_design", "normalize_designs", "parse_quantity", "DesignTable",
     "get_material", "material_names", "register_material", "load_material_file", "material_from_dict", "Material",
