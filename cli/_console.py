@@ -158,16 +158,16 @@ def _line(row: dict, prev) -> Text:
     t = Text.assemble(regime_text(row["regime"]))
     if math.isfinite(row.get("regime_prob", math.nan)):
         t.append(f" {F.probability(row['regime_prob'])}")
-    t.append(f"  V_bi {F.volts(row['vbi_V'])}")
+    t.append(f" V_bi {F.volts(row['vbi_V'], False)}")
     if math.isfinite(row.get("vbi_low_V", math.nan)):
         t.append(f" [{F.volts(row['vbi_low_V'], False)}, {F.volts(row['vbi_high_V'], False)}]")
-    t.append(f"  ({F.percent(row['vbi_V'] / row['vbi0_V'])} of V_bi0)")
+    t.append(f" V ({F.percent(row['vbi_V'] / row['vbi0_V'])})")
     if prev is not None and prev.get("status") == "ok":
         d = 1e3 * (row["vbi_V"] - prev["vbi_V"])
-        t.append(f"  Δ {F.millivolts(d)}", style="#3aa876" if d >= 0 else "#d9534f")
+        t.append(f" Δ {F.millivolts(d)}", style="#3aa876" if d >= 0 else "#d9534f")
     if row.get("confirm_with_solver"):
-        t.append("  ⚑ verified" if row.get("verified") else "  ⚑ uncertain: `verify`", style="bold #e0a526")
-    t.append(f"  {row['ms']:.2f} ms", style="dim")
+        t.append(" ⚑ verified" if row.get("verified") else " ⚑ verify", style="bold #e0a526")
+    t.append(f" {F.milliseconds(row['ms'] / 1e3)}", style="dim")
     return t
 
 
@@ -285,6 +285,8 @@ def cmd_console(args, console, out, stdin=None) -> int:
     if session.assumed:
         console.print(Text(_assumed_text(session), style="#e0a526"))
     session.last = session.answer()
+    console.print(Text("each line: regime prob. V_bi [95 % interval] V (of V_bi0) Δ time; ⚑: uncertain",
+                       style="dim"))
     console.print(_line(session.last, None))
     try:
         while True:

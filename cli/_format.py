@@ -21,7 +21,7 @@ def volts(x, unit: bool = True) -> str:
 
 def millivolts(x) -> str:
     """Differences of potentials [mV] to 0.1 mV, signed."""
-    return DASH if _bad(x) else f"{float(x):+.1f} mV"
+    return DASH if _bad(x) else f"{round(float(x), 1) + 0.0:+.1f} mV"  # + 0.0: no "-0.0"
 
 
 def nm(x, unit: bool = True) -> str:
