@@ -57,7 +57,7 @@ def test_console_verify_clears_the_flag():
     flat = " ".join(text.split())
     assert code == 0 and "solver: " in flat
     before, after = flat.split("solver: ", 1)
-    assert re.search("⚑ verify(?!ed)", before.split("uncertain here", 1)[1])
+    assert re.search("⚑ verify(?!ed)", before.split("⚑: uncertain", 1)[1])
     assert "⚑ verified" in after and not re.search("⚑ verify(?!ed)", after)
 
 
