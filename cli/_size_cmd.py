@@ -225,12 +225,12 @@ def cmd_search(args, console, out) -> int:
     t = Table(title=f"best of {n:,} candidates ({elapsed:.1f} s, {n / elapsed:,.0f}/s): minimise {args.minimize}",
               title_justify="left")
     for c in ["#", *[SHORT_LABEL.get(c, c) for c in vary], f"{OBJ_LABEL[args.minimize]} [nm]", "V_bi [V]",
-              "solver V_bi [V]", "solver check"]:
+              "solver V_bi [V]", "target"]:
         t.add_column(escape(c), justify="right")
     confirmed = "solver_meets" in w
     for k in range(w["objective"].size):
         ok_k = bool(w["solver_meets"][k]) if confirmed else None
-        check = (Text("meets target" if ok_k else "MISSES", style="#3aa876" if ok_k else "#d9534f") if confirmed
+        check = (Text("✓ meets" if ok_k else "✗ MISSES", style="#3aa876" if ok_k else "#d9534f") if confirmed
                  else Text("—"))
         t.add_row(str(k + 1), *[fmt_value(c, w[c][k]) for c in vary], F.nm(w["objective"][k], False),
                   F.volts(w["vbi_V"][k], False), F.volts(w["solver_vbi_V"][k], False) if confirmed else "—", check)
