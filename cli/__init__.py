@@ -16,7 +16,7 @@ from . import _errors
 __all__ = ["main", "build_parser"]
 
 #: command modules, in the order `radialpn --help` lists their commands
-COMMAND_MODULES = ("_commands", "_profile_cmd", "_map_cmd", "_size_cmd", "_spread_cmd", "_calibrate_cmd", "_console",
+COMMAND_MODULES = ("_commands", "_profile_cmd", "_map_cmd", "_size_cmd", "_spread_cmd", "_calibrate_cmd", "_report_cmd", "_console",
                    "_models_cmd", "_dataset_cmd", "_demo")
 
 

@@ -14,6 +14,12 @@ VARIABLES.update({"shell": "shell_thickness_nm", "core": "core_radius_nm", "T": 
 UNITS = {"core_radius_nm": "nm", "shell_thickness_nm": "nm", "core_doping_cm3": "cm⁻³", "shell_doping_cm3": "cm⁻³",
          "dit_cm2eV": "cm⁻²eV⁻¹", "cnl_eV": "eV", "temperature_K": "K"}
 
+#: short column headings for tables that must fit 80 columns (docs/output.md lists them)
+SHORT_LABEL = {"core_radius_nm": "core a [nm]", "shell_thickness_nm": "shell t [nm]",
+               "core_doping_cm3": "N core [cm⁻³]", "shell_doping_cm3": "N shell [cm⁻³]",
+               "dit_cm2eV": "D_it [cm⁻²eV⁻¹]", "cnl_eV": "E_cnl [eV]", "temperature_K": "T [K]",
+               "interlayer_nm": "interlayer [nm]"}
+
 
 def column(name: str, option: str) -> str:
     col = VARIABLES.get(name.strip())
@@ -50,6 +56,7 @@ def axis_spec(text: str, option: str, scaled: bool = False):
 
 
 def fmt_value(col: str, x: float) -> str:
-    if col in ("core_doping_cm3", "shell_doping_cm3", "dit_cm2eV"):
-        return f"{x:.2g}"
-    return f"{x:.3g}"
+    """A design variable's value as tables and axes print it (cli/_format.py's precision)."""
+    from ._format import quantity
+
+    return quantity(col, x)

@@ -9,6 +9,7 @@ import math
 import os
 
 import numpy as np
+from rich.markup import escape
 from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
@@ -115,7 +116,7 @@ def cmd_ask(args, console, out) -> int:
     if row["status"] != "ok":
         console.print(f"[bold #d9534f]no answer:[/] {row['status']}")
         return _errors.NO_ANSWER
-    console.print(answer_table(row))
+    console.print(answer_table(row, verified=check is not None))
     if row.get("engine_note"):
         console.print(Text(f"auto engine: {row['engine_note']}", style="dim"))
     if check is not None:
@@ -198,11 +199,11 @@ def cmd_materials(args, console, out) -> int:
         out.write(json.dumps(data, indent=2) + "\n")
         return _errors.OK
     table = Table(title=f"Material table at {t:g} K", title_justify="left")
-    for col in ("material", "E_g [eV]", "eps_r", "N_c [cm⁻³]", "N_v [cm⁻³]", "E_cnl [eV]"):
-        table.add_column(col, justify="right" if col != "material" else "left")
+    for col in ("material", "E_g [eV]", "ε_r [1]", "N_c [cm⁻³]", "N_v [cm⁻³]", "E_cnl − E_v [eV]"):
+        table.add_column(escape(col), justify="right" if col != "material" else "left")
     for name, row in data.items():
-        table.add_row(name, f"{row['band_gap_eV']:.4f}", f"{row['permittivity_rel']:g}", f"{row['nc_cm3']:.3g}",
-                      f"{row['nv_cm3']:.3g}", f"{row['cnl_eV']:.3g}")
+        table.add_row(name, f"{row['band_gap_eV']:.3f}", f"{row['permittivity_rel']:.3g}", f"{row['nc_cm3']:.2e}",
+                      f"{row['nv_cm3']:.2e}", f"{row['cnl_eV']:.3f}")
     console.print(table)
     console.print("[dim]Sources: `radialpn materials --json` lists the source of every value.[/]")
     return _errors.OK

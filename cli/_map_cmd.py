@@ -20,6 +20,7 @@ from ._render import CAUTION, REGIME_STYLE
 #: V_bi colour scale (low -> high), eight steps of our own
 SCALE = ("#2b1d3f", "#3b2f6b", "#33508f", "#1f7a99", "#1f9e8a", "#54b86a", "#a5cc4b", "#f0d83a")
 NO_ANSWER = "#555555"
+DIGITS = 10  #: the V_bi panel's levels, one digit each
 
 
 def register(sub) -> None:
@@ -41,16 +42,47 @@ def _ticks(values, col, n):
     return {int(i): fmt_value(col, values[i]) for i in idx}
 
 
+def tick_row(positions: dict, width: int, indent: int):
+    """(text, kept): tick labels centred under their columns; a label that would touch its
+    left neighbour (less than one blank between) is dropped, so labels never run together."""
+    labels = [" "] * (width + indent)
+    end, kept = -2, []
+    for col in sorted(positions):
+        s = positions[col]
+        start = max(0, min(indent + col - len(s) // 2, len(labels) - len(s)))
+        if start <= end + 1:
+            continue
+        labels[start:start + len(s)] = list(s)
+        end = start + len(s) - 1
+        kept.append(col)
+    return "".join(labels).rstrip(), kept
+
+
+def _x_ticks(xs, col, span):
+    """As many evenly spread x ticks as fit ``span`` characters with their labels apart."""
+    longest = max(len(fmt_value(col, v)) for v in xs)
+    n = max(2, min(8, span // (longest + 2) + 1, len(xs)))
+    return _ticks(xs, col, n)
+
+
+def vbi_levels(vbi):
+    """(low, step) of the ten V_bi digits 0..9 over the finite values [V]."""
+    finite = vbi[np.isfinite(vbi)]
+    lo, hi = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 1.0)
+    return lo, max(hi - lo, 1e-9) / DIGITS
+
+
 def render_map(console, xs, ys, xcol, ycol, regime, vbi, mark=None):
     """Two panels (regime, V_bi) with axes; ``regime``/``vbi`` shaped (len(ys), len(xs)).
-    Cells are two characters wide where the console has room, else one."""
+    The regime panel carries a glyph per regime, the V_bi panel a digit 0-9 per tenth of the
+    V_bi range (colour as well, never colour alone). Cells are two characters wide where the
+    console has room, else one."""
     ny, nx = regime.shape
     cw = 2 if 2 * nx + 12 <= console.width else 1
-    finite = vbi[np.isfinite(vbi)]
-    vlo, vhi = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 1.0)
-    vhi = vhi if vhi > vlo else vlo + 1e-9
+    vlo, step = vbi_levels(vbi)
     yt = _ticks(ys, ycol, min(ny, 6))
-    xt = _ticks(xs, xcol, min(nx // 6 + 1, 6))
+    xt = _x_ticks(xs, xcol, cw * (nx - 1))
+    xlabels, kept = tick_row({cw * i: s for i, s in xt.items()}, cw * nx + 2, 10)
     for title in ("regime", "V_bi"):
         console.print(Text(f"{title} over {xcol} × {ycol}" + ("   (◆ the design given)" if mark else ""), style="bold"))
         for j in range(ny - 1, -1, -1):
@@ -67,30 +99,24 @@ def render_map(console, xs, ys, xcol, ycol, regime, vbi, mark=None):
                     if not math.isfinite(v):
                         line.append("·" + pad, style=NO_ANSWER)
                         continue
-                    k = min(int((v - vlo) / (vhi - vlo) * len(SCALE)), len(SCALE) - 1)
-                    line.append(("◆" if here else " ") + pad, style=f"bold white on {SCALE[k]}")
+                    k = min(int((v - vlo) / step), DIGITS - 1)
+                    colour = SCALE[k * len(SCALE) // DIGITS]
+                    line.append(("◆" if here else str(k)) + pad, style=f"bold {'black' if k >= 6 else 'white'} on {colour}")
             console.print(line)
         axis_line = [" "] * (cw * nx)
-        labels = [" "] * (cw * nx + 12)
-        for i, s in xt.items():
-            axis_line[cw * i] = "┴"
-            start = max(0, min(10 + cw * i - len(s) // 2, len(labels) - len(s)))
-            labels[start:start + len(s)] = list(s)
+        for c in kept:
+            axis_line[c] = "┴"
         console.print(Text("          " + "".join(axis_line).replace(" ", "─"), style="dim"))
-        console.print(Text("".join(labels).rstrip(), style="dim"))
+        console.print(Text(xlabels, style="dim"))
         console.print(Text(f"          {xcol} [{UNITS.get(xcol, '')}] →   ↑ {ycol} [{UNITS.get(ycol, '')}]", style="dim"))
         if title == "regime":
             legend = Text("  ")
             for r, (style, glyph, _) in REGIME_STYLE.items():
-                legend.append(f"{glyph} {r}   ", style=style)
+                legend.append(f"{glyph} {r}  ", style=style)
             legend.append("· no answer", style=NO_ANSWER)
         else:
-            legend = Text("  V_bi  ")
-            for k, c in enumerate(SCALE):
-                legend.append("  ", style=f"on {c}")
-                if k in (0, len(SCALE) - 1):
-                    legend.append(f" {vlo + (vhi - vlo) * k / (len(SCALE) - 1):.3f} V ")
-            legend.append("   · no answer", style=NO_ANSWER)
+            legend = Text(f"  digit d: V_bi ≥ {vlo:.3f} + d×{step:.3f} V (9: up to {vlo + DIGITS * step:.3f} V)"
+                          "  · no answer")
         console.print(legend)
 
 
@@ -109,11 +135,14 @@ def cmd_map(args, console, out) -> int:
     if args.csv:
         _write_csv(args.csv, m["designs"], res)
     if args.png:
-        _write_png(args.png, xs, ys, xcol, ycol, regime, vbi, args.engine)
+        _write_png(args.png, m, args.engine)
     if args.json:
-        out.write(json.dumps({"x": {"column": xcol, "values": xs.tolist()}, "y": {"column": ycol, "values": ys.tolist()},
+        out.write(json.dumps({"x": {"column": xcol, "values": xs.tolist(), "log": m["x_log"]},
+                              "y": {"column": ycol, "values": ys.tolist(), "log": m["y_log"]},
                               "regime": regime.tolist(), "vbi_V": [[None if not math.isfinite(v) else v for v in row]
-                                                                   for row in vbi], "engine": args.engine}) + "\n")
+                                                                   for row in vbi],
+                              "mark": list(m["mark"]) if m["mark"] is not None else None, "engine": args.engine,
+                              "caution": CAUTION}, allow_nan=False) + "\n")
         return _errors.OK
     render_map(console, xs, ys, xcol, ycol, regime, vbi, m["mark"])
     bad = int((res["status"] != "ok").sum())
@@ -125,7 +154,6 @@ def cmd_map(args, console, out) -> int:
     return _errors.OK
 
 
-_LOG = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
 
 
 def _write_csv(path, designs, res):
@@ -148,27 +176,76 @@ def _cell(x):
     return str(x)
 
 
-def _write_png(path, xs, ys, xcol, ycol, regime, vbi, engine):
-    plt = _png.pyplot()
+def map_figure(plt, m, engine, design_mark=True):
+    """The map as a matplotlib figure: regime panel with its boundaries, V_bi panel with a
+    colour scale in volts, log ticks on log axes, the design point marked."""
     from matplotlib.colors import ListedColormap
-    from matplotlib.ticker import NullFormatter, ScalarFormatter
+
+    xs, ys, xcol, ycol = m["x_values"], m["y_values"], m["x_column"], m["y_column"]
     codes = {r: i for i, r in enumerate(REGIME_STYLE)}
-    rc = np.array([[codes.get(r, np.nan) for r in row] for row in regime], dtype=float)
+    rc = np.array([[codes.get(r, np.nan) for r in row] for row in m["regime"]], dtype=float)
     fig, axes = plt.subplots(1, 2, figsize=(11, 4.4), dpi=120)
-    cmap = ListedColormap([REGIME_STYLE[r][0].split()[-1] for r in REGIME_STYLE])
-    axes[0].pcolormesh(xs, ys, rc, cmap=cmap, vmin=-0.5, vmax=3.5, shading="nearest")
+    colours = [REGIME_STYLE[r][0].split()[-1] for r in REGIME_STYLE]
+    axes[0].pcolormesh(xs, ys, rc, cmap=ListedColormap(colours), vmin=-0.5, vmax=3.5, shading="nearest")
     axes[0].set_title("regime")
-    handles = [plt.Rectangle((0, 0), 1, 1, color=REGIME_STYLE[r][0].split()[-1]) for r in REGIME_STYLE]
-    axes[0].legend(handles, list(REGIME_STYLE), fontsize=7, loc="best")
-    m = axes[1].pcolormesh(xs, ys, vbi, cmap=ListedColormap(SCALE), shading="nearest")
-    fig.colorbar(m, ax=axes[1], label="V_bi [V]")
-    axes[1].set_title(f"built-in potential ({engine}; design estimate)")
+    handles = [plt.Rectangle((0, 0), 1, 1, color=c) for c in colours]
+    axes[0].legend(handles, list(REGIME_STYLE), fontsize=7, loc="best", framealpha=0.85)
+    mesh = axes[1].pcolormesh(xs, ys, m["vbi_V"], cmap=ListedColormap(SCALE), shading="nearest")
+    fig.colorbar(mesh, ax=axes[1], label="built-in potential V_bi [V]")
+    axes[1].set_title(f"V_bi ({engine} engine; design estimate)")
+    from matplotlib.collections import LineCollection
+
+    xe, ye = _edges(xs, m["x_log"]), _edges(ys, m["y_log"])
     for a in axes:
+        a.add_collection(LineCollection(_boundaries(m["regime"], xe, ye), colors="black", linewidths=1.0))
+        a.set_xlim(xe[0], xe[-1])
+        a.set_ylim(ye[0], ye[-1])
         a.set_xlabel(f"{xcol} [{UNITS.get(xcol, '')}]")
         a.set_ylabel(f"{ycol} [{UNITS.get(ycol, '')}]")
-        for use, which in ((xcol in _LOG, a.xaxis), (ycol in _LOG, a.yaxis)):
-            if use:
-                (a.set_xscale if which is a.xaxis else a.set_yscale)("log")
-                which.set_minor_formatter(NullFormatter())
-                which.set_major_formatter(ScalarFormatter())
-    _png.save(fig, path)
+        for log, values, axis, set_scale in ((m["x_log"], xs, a.xaxis, a.set_xscale),
+                                             (m["y_log"], ys, a.yaxis, a.set_yscale)):
+            if log:
+                _log_axis(axis, set_scale, values)
+        if design_mark and m["mark"] is not None:
+            j, i = m["mark"]
+            a.plot([xs[i]], [ys[j]], marker="D", ms=8, mfc="white", mec="black", ls="none", label="design")
+    axes[1].legend(loc="best", fontsize=7) if m["mark"] is not None else None
+    return fig
+
+
+def _edges(values, log):
+    """Cell edges around grid points (geometric midpoints on a log axis)."""
+    v = np.log(values) if log else np.asarray(values, dtype=float)
+    mid = 0.5 * (v[1:] + v[:-1])
+    e = np.concatenate([[v[0] - (mid[0] - v[0])], mid, [v[-1] + (v[-1] - mid[-1])]])
+    return np.exp(e) if log else e
+
+
+def _boundaries(regime, xe, ye):
+    """Line segments along every cell edge where the regime changes."""
+    segs = []
+    ny, nx = regime.shape
+    for j in range(ny):
+        for i in range(nx):
+            if i + 1 < nx and regime[j, i] != regime[j, i + 1]:
+                segs.append([(xe[i + 1], ye[j]), (xe[i + 1], ye[j + 1])])
+            if j + 1 < ny and regime[j, i] != regime[j + 1, i]:
+                segs.append([(xe[i], ye[j + 1]), (xe[i + 1], ye[j + 1])])
+    return segs
+
+
+def _log_axis(axis, set_scale, values):
+    """A log axis with labelled ticks: powers of ten over wide ranges, 1-2-5 steps in plain
+    numbers over less than two decades (so a 20-150 nm axis reads 20, 50, 100)."""
+    from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
+
+    set_scale("log")
+    if values[-1] / values[0] < 100:
+        axis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
+        axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+        axis.set_minor_formatter(NullFormatter())
+
+
+def _write_png(path, m, engine):
+    plt = _png.pyplot()
+    _png.save(map_figure(plt, m, engine), path)

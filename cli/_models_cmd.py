@@ -53,25 +53,47 @@ def cmd_models(args, console, out) -> int:
     if not rows:
         console.print("No surrogate bundles installed. Build one with `radialpn train models/specs/NAME.toml`.")
         return _errors.OK
-    table = Table(title="Surrogate bundles (accuracy against fresh reference-solver runs)", title_justify="left")
-    for col in ("bundle", "wire", "domain", "regime acc.", "V_bi mean / p99", "95 % coverage"):
-        table.add_column(col, no_wrap=col in ("domain", "bundle"))
+    metas = {}
     for name, material, core_type, path in rows:
         try:
-            meta = json.loads((path / "bundle.json").read_text(encoding="utf-8"))
+            metas[name] = (material, core_type, json.loads((path / "bundle.json").read_text(encoding="utf-8")))
         except (OSError, ValueError):
-            table.add_row(name, "?", "unreadable bundle.json", "", "", "")
+            metas[name] = (material, core_type, None)
+    table = Table(title="Surrogate bundles: accuracy against fresh reference-solver runs", title_justify="left")
+    for col in ("bundle", "wire", "statistics", "regime\naccuracy", "V_bi error [mV]\nmean / p99", "95 % interval\ncoverage"):
+        table.add_column(escape(col), justify="left" if col in ("bundle", "wire", "statistics") else "right")
+    for name, (material, core_type, meta) in metas.items():
+        if meta is None:
+            table.add_row(name, f"{material} {core_type}-core", "unreadable bundle.json", "", "", "")
             continue
-        domain = meta.get("domain", {})
-        dom = "\n".join(escape(f"{SHORT[k]} {domain[k][0]:g}–{domain[k][1]:g}") for k in SHORT if k in domain)
         v = meta.get("validation") or {}
-        table.add_row(name, f"{material} {core_type}-core\n{meta.get('statistics', '')}", dom,
-                      f"{v['regime_accuracy']:.2%}" if v else "not validated",
-                      f"{v['vbi_mean_mV']:.2f} / {v['vbi_p99_mV']:.1f} mV" if v else "",
-                      f"{v['interval_coverage']:.1%}" if v else "")
+        table.add_row(name, f"{material} {core_type}-core", meta.get("statistics", ""),
+                      f"{100 * v['regime_accuracy']:.2f} %" if v else "not validated",
+                      f"{v['vbi_mean_mV']:.2f} / {v['vbi_p99_mV']:.2f}" if v else "",
+                      f"{100 * v['interval_coverage']:.2f} %" if v else "")
     console.print(table)
-    console.print("[dim]Model cards: CARD.md in each bundle directory. Answers are design estimates.[/]")
+    named = [n for n, (_, _, m) in metas.items() if m is not None]
+    dom = Table(title="trained domain (designs outside get no answer)", title_justify="left")
+    dom.add_column("variable")
+    for n in named:
+        dom.add_column(n, justify="right")
+    for k, label in SHORT.items():
+        cells = []
+        for n in named:
+            d = metas[n][2].get("domain", {}).get(k)
+            cells.append(f"{_q(k, d[0])}–{_q(k, d[1])}" if d else "")
+        if any(cells):
+            dom.add_row(escape(label), *cells)
+    console.print(dom)
+    console.print("[dim]Validated rows per bundle and the method: CARD.md in each bundle directory. Answers are "
+                  "design estimates, not measurements.[/]")
     return _errors.OK
+
+
+def _q(col, x):
+    from ._axes import fmt_value
+
+    return fmt_value(col, x)
 
 
 def cmd_validate(args, console, out) -> int:

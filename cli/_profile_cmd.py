@@ -11,6 +11,7 @@ from rich.text import Text
 import radialpn
 
 from . import _errors, _png
+from . import _format as F
 from ._designargs import add_design_flags, design_from_args, flag_hint
 from ._plot import BrailleCanvas
 from ._render import CAUTION, design_line, regime_text
@@ -88,10 +89,10 @@ def cmd_profile(args, console, out) -> int:
         legend.append("┄ depletion approx. E_c, E_v", style=STYLE["ec_da"]).append("   ")
     legend.append("█ neutral  ░ depleted  (core blue, shell orange)", style="dim")
     console.print(legend)
-    summary = Text.assemble("  ", regime_text(main["regime"]), f"   V_bi {main['vbi_V']:.4f} V ({args.engine})")
+    summary = Text.assemble("  ", regime_text(main["regime"]), f"   V_bi {F.volts(main['vbi_V'])} ({args.engine})")
     if isinstance(other, dict):
-        summary.append(f"   depletion approx.: {other['regime']}, V_bi {other['vbi_V']:.4f} V, "
-                       f"difference {1e3 * (main['vbi_V'] - other['vbi_V']):+.1f} mV")
+        summary.append(f"   depletion approx.: {other['regime']}, V_bi {F.volts(other['vbi_V'])}, "
+                       f"difference {F.millivolts(1e3 * (main['vbi_V'] - other['vbi_V']))}")
     elif isinstance(other, str):
         summary.append(f"   depletion approx.: no answer ({other})")
     console.print(summary)

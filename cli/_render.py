@@ -3,10 +3,10 @@ render to a string."""
 
 from __future__ import annotations
 
-import math
-
 from rich.table import Table
 from rich.text import Text
+
+from . import _format as F
 
 #: regime -> (style, glyph, plain-words meaning)
 REGIME_STYLE = {
@@ -22,12 +22,6 @@ CAUTION = ("Design estimate, not a measurement: confirm the design with measurem
 def regime_text(regime: str) -> Text:
     style, glyph, _ = REGIME_STYLE.get(regime, ("bold", "?", ""))
     return Text(f"{glyph} {regime}", style=style)
-
-
-def fmt(x, unit: str = "", digits: int = 4) -> str:
-    if x is None or (isinstance(x, float) and math.isnan(x)):
-        return "—"
-    return f"{x:.{digits}g} {unit}".rstrip()
 
 
 def cross_section(row: dict, width: int = 48) -> Text:
@@ -54,26 +48,27 @@ def cross_section(row: dict, width: int = 48) -> Text:
     return text
 
 
-def answer_table(row: dict) -> Table:
-    """The what-you-get table for one answered design."""
+def answer_table(row: dict, verified: bool = False) -> Table:
+    """The what-you-get table for one answered design. ``verified``: the reference solver has
+    checked this answer (its line follows), so the uncertainty flag is not repeated."""
     t = Table(show_header=False, box=None, pad_edge=False)
     t.add_column(style="dim", no_wrap=True)
     t.add_column()
     regime = row["regime"]
-    prob = f"  (probability {row['regime_prob']:.3f})" if "regime_prob" in row else ""
+    prob = f"  (probability {F.probability(row['regime_prob'])})" if "regime_prob" in row else ""
     t.add_row("regime", Text.assemble(regime_text(regime), prob, "  ", Text(REGIME_STYLE[regime][2], style="italic")))
     kept = row["vbi_V"] / row["vbi0_V"] if row["vbi0_V"] else float("nan")
-    interval = (f"  95 % interval [{row['vbi_low_V']:.4f}, {row['vbi_high_V']:.4f}] V"
+    interval = (f"  95 % interval [{F.volts(row['vbi_low_V'], False)}, {F.volts(row['vbi_high_V'])}]"
                 if "vbi_low_V" in row else "")
-    t.add_row("built-in potential V_bi", Text.assemble((fmt(row["vbi_V"], "V"), "bold"), interval,
-                                                       f"   ({kept:.1%} of the bulk V_bi0)"))
+    t.add_row("built-in potential V_bi", Text.assemble((F.volts(row["vbi_V"]), "bold"), interval,
+                                                       f"   ({F.percent(kept)} of the bulk V_bi0)"))
     if "vbi_gp_V" in row and row["vbi_gp_V"] == row["vbi_gp_V"]:
-        t.add_row("second opinion (GP)", f"{row['vbi_gp_V']:.4f} V  [{row['vbi_gp_low_V']:.4f}, "
-                  f"{row['vbi_gp_high_V']:.4f}] V")
-    t.add_row("bulk V_bi0", fmt(row["vbi0_V"], "V"))
-    t.add_row("core neutral radius", f"{fmt(row['core_neutral_radius_nm'], 'nm')} of {fmt(row['core_radius_nm'], 'nm')}")
-    t.add_row("shell neutral thickness", f"{fmt(row['shell_neutral_nm'], 'nm')} of {fmt(row['shell_thickness_nm'], 'nm')}")
-    t.add_row("surface band bending", fmt(row["surface_bending_V"], "V"))
+        t.add_row("second opinion (GP)", f"{F.volts(row['vbi_gp_V'])}  [{F.volts(row['vbi_gp_low_V'], False)}, "
+                  f"{F.volts(row['vbi_gp_high_V'])}]")
+    t.add_row("bulk V_bi0", F.volts(row["vbi0_V"]))
+    t.add_row("core neutral radius", f"{F.nm(row['core_neutral_radius_nm'])} of {F.nm(row['core_radius_nm'])}")
+    t.add_row("shell neutral thickness", f"{F.nm(row['shell_neutral_nm'])} of {F.nm(row['shell_thickness_nm'])}")
+    t.add_row("surface band bending", F.volts(row["surface_bending_V"]))
     for core, shell, what in (("core_margin", "shell_margin", "neutral fraction"),
                               ("core_majority_ln", "shell_majority_ln", "ln(majority / half doping)")):
         if core in row:
@@ -85,10 +80,11 @@ def answer_table(row: dict) -> Table:
         outside = "outside: answered by the reference solver" if row.get("engine") == "solver" else "OUTSIDE (no answer)"
         t.add_row("trained domain", "inside" if row["in_domain"] else outside)
     if row.get("confirm_with_solver"):
-        t.add_row("", Text("⚑ uncertain here: confirm with --verify or --engine solver", style="bold #e0a526"))
+        t.add_row("", Text("⚑ uncertain here: the solver's check follows" if verified
+                           else "⚑ uncertain here: confirm with --verify or --engine solver", style="bold #e0a526"))
     if "seconds" in row:
         warm = "" if row["engine"] == "solver" else " (warm)"
-        t.add_row("answered in", f"{1e3 * row['seconds']:.2f} ms{warm} by the {row['engine']} engine")
+        t.add_row("answered in", f"{F.milliseconds(row['seconds'])}{warm} by the {row['engine']} engine")
     return t
 
 
@@ -96,9 +92,9 @@ def verify_line(row: dict, check: dict) -> Text:
     """One line comparing an answer with the reference solver's."""
     same = row["regime"] == check["regime"]
     text = Text("verify  ", style="bold")
-    text.append(f"solver: {check['regime']}, V_bi {check['vbi_V']:.4f} V in {1e3 * check['seconds']:.1f} ms · ")
+    text.append(f"solver: {check['regime']}, V_bi {F.volts(check['vbi_V'])} in {F.milliseconds(check['seconds'])} · ")
     text.append("same regime" if same else "REGIME DIFFERS", style="#3aa876" if same else "bold #d9534f")
-    text.append(f" · V_bi difference {1e3 * (row['vbi_V'] - check['vbi_V']):+.2f} mV")
+    text.append(f" · V_bi difference {F.millivolts(1e3 * (row['vbi_V'] - check['vbi_V']))}")
     if "vbi_low_V" in row:
         inside = row["vbi_low_V"] <= check["vbi_V"] <= row["vbi_high_V"]
         text.append(" (inside the interval)" if inside else " (outside the interval)")
@@ -107,7 +103,7 @@ def verify_line(row: dict, check: dict) -> Text:
 
 def design_line(row: dict) -> str:
     shell = "n" if row["core_type"] == "p" else "p"
-    return (f"{row['material']} {row['core_type']}-core/{shell}-shell · core {row['core_radius_nm']:g} nm "
-            f"({row['core_doping_cm3']:.2g} cm⁻³) · shell {row['shell_thickness_nm']:g} nm "
-            f"({row['shell_doping_cm3']:.2g} cm⁻³) · D_it {row['dit_cm2eV']:.2g} cm⁻²eV⁻¹ · "
-            f"E_cnl {row['cnl_eV']:.3g} eV · {row['temperature_K']:g} K")
+    return (f"{row['material']} {row['core_type']}-core/{shell}-shell · core {F.nm(row['core_radius_nm'])} "
+            f"({F.density(row['core_doping_cm3'])} cm⁻³) · shell {F.nm(row['shell_thickness_nm'])} "
+            f"({F.density(row['shell_doping_cm3'])} cm⁻³) · D_it {F.density(row['dit_cm2eV'])} cm⁻²eV⁻¹ · "
+            f"E_cnl {F.volts(row['cnl_eV'], False)} eV · {row['temperature_K']:g} K")

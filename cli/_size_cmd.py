@@ -6,18 +6,22 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from rich.markup import escape
 from rich.table import Table
 from rich.text import Text
 
 import radialpn
 
 from . import _errors, _png
-from ._axes import UNITS, axis_spec, fmt_value
+from . import _format as F
+from ._axes import SHORT_LABEL, UNITS, axis_spec, fmt_value
+from ._export import dumps, write_csv
 from ._designargs import (add_design_flags, design_from_args, engine_flags, progress_bar, target_flags,
                           target_from_args)
 from ._plot import BrailleCanvas
 from ._render import CAUTION, regime_text
 
+OBJ_LABEL = {"total-radius": "a + t", "core-radius": "a", "shell-thickness": "t"}
 LOG_COLUMNS = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
 
 
@@ -30,6 +34,7 @@ def register(sub) -> None:
     sz.add_argument("--points", type=int, default=9, help="points of the sweep (default 9)")
     sz.add_argument("--png", metavar="FILE", help="sweep plot as PNG (plot extra)")
     sz.add_argument("--no-confirm", action="store_true", help="skip the reference-solver checks")
+    _export_flags(sz)
     sz.set_defaults(handler=cmd_size)
 
     se = sub.add_parser("search", help="best design among many random candidates under a V_bi target")
@@ -42,7 +47,28 @@ def register(sub) -> None:
     se.add_argument("--candidates", type=int, default=200_000, help="random candidates (default 200000)")
     se.add_argument("--top", type=int, default=5, help="winners to show and re-check with the solver")
     se.add_argument("--seed", type=int, default=0)
+    _export_flags(se)
     se.set_defaults(handler=cmd_search)
+
+
+def _export_flags(sp) -> None:
+    sp.add_argument("--json", action="store_true", help="print the answer as JSON instead")
+    sp.add_argument("--csv", metavar="FILE", help="also write the answer as CSV")
+
+
+SIZE_FIELDS = ("dimension", "value_nm", "optimistic_nm", "conservative_nm", "regime", "confirmed",
+               "solver_vbi_above_V", "solver_vbi_below_V", "fixed_nm", "reason")
+
+
+def size_rows(res) -> list:
+    """One row per critical dimension in ``SIZE_FIELDS`` order (for CSV and JSON)."""
+    rows = []
+    for col in ("core_radius_nm", "shell_thickness_nm"):
+        r = res[col]
+        other = "shell_thickness_nm" if col == "core_radius_nm" else "core_radius_nm"
+        rows.append([col, r["value_nm"], r["optimistic_nm"], r["conservative_nm"], r["regime"], r["confirmed"],
+                     r["solver_vbi_V"][0], r["solver_vbi_V"][1], res["design"][other], r["reason"]])
+    return rows
 
 
 def cmd_size(args, console, out) -> int:
@@ -50,46 +76,60 @@ def cmd_size(args, console, out) -> int:
     design = design_from_args(args)
     goal = radialpn.target_text(**target)
     if args.sweep:
-        return _sweep(args, console, design, target, goal)
+        return _sweep(args, console, out, design, target, goal)
     res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics,
                                        confirm=not args.no_confirm)
+    rows = size_rows(res)
+    if args.csv:
+        write_csv(args.csv, SIZE_FIELDS, rows)
+    if args.json:
+        out.write(dumps({"target": goal, "engine": args.engine, "design": res["design"],
+                         "scan_ranges_nm": res["scan_ranges_nm"], "confirm_step_nm": res["confirm_step_nm"],
+                         "dimensions": [dict(zip(SIZE_FIELDS, r)) for r in rows], "caution": CAUTION}) + "\n")
+        return _errors.OK
     base = res["design"]
     step = res["confirm_step_nm"]
     t = Table(title=f"critical dimensions for {goal} ({args.engine} engine)", title_justify="left")
-    for c in ("dimension", "critical", "interval", "regime there", f"solver ±{step:g}"):
-        t.add_column(c, no_wrap=True)
+    for c in ("dimension", "critical", "interval range", "regime there", f"solver ±{step:g} nm"):
+        t.add_column(c)
     reasons = []
     for col in ("core_radius_nm", "shell_thickness_nm"):
         r = res[col]
         other = "shell_thickness_nm" if col == "core_radius_nm" else "core_radius_nm"
         label = "smallest core" if col == "core_radius_nm" else "thinnest shell"
-        label = f"{label}\n({'shell' if col == 'core_radius_nm' else 'core'} {base[other]:g} nm)"
+        label = f"{label}\n({'shell' if col == 'core_radius_nm' else 'core'} {F.nm(base[other])})"
         if not math.isfinite(r["value_nm"]):
             lo, hi = res["scan_ranges_nm"][col]
-            t.add_row(label, "none", f"{lo:g}–{hi:g} nm scanned", "", "")
+            t.add_row(label, Text("none", style="bold #d9534f"), f"{F.nm(lo, False)}–{F.nm(hi)} scanned", "",
+                      "see why below")
             reasons.append(r["reason"])
             continue
-        rng = (f"{r['optimistic_nm']:.3g}–{r['conservative_nm']:.3g} nm" if r["optimistic_nm"] != r["conservative_nm"]
-               else "—")
-        check = Text("")
+        if not math.isfinite(r["optimistic_nm"]) or r["optimistic_nm"] == r["conservative_nm"]:
+            rng = "no interval" if args.engine != "surrogate" else F.nm(r["value_nm"])
+        else:
+            rng = F.nm_range(r["optimistic_nm"], r["conservative_nm"])
+        check = Text("not checked (--no-confirm)" if args.no_confirm else "")
         if r["confirmed"] is not None:
             check = Text("✓ confirmed" if r["confirmed"] else "✗ not confirmed",
                          style="#3aa876" if r["confirmed"] else "bold #d9534f")
         elif r["reason"]:
+            check = Text("not checked: see below")
             reasons.append(r["reason"])
-        t.add_row(label, Text(f"{r['value_nm']:.3g} nm", style="bold"), rng, regime_text(r["regime"]), check)
+        t.add_row(label, Text(F.nm(r["value_nm"]), style="bold"), rng, regime_text(r["regime"]), check)
     console.print(t)
     for why in reasons:
-        console.print(f"[#e0a526]why:[/] {why}")
+        console.print(f"[#e0a526]why:[/] {escape(why)}")
     if "solver_seconds" in res:
         console.print(f"[dim]✓: the reference solver meets the target {step:g} nm above and misses it "
-                      f"{step:g} nm below ({1e3 * res['solver_seconds']:.0f} ms). Interval range: the critical value read "
-                      f"from the upper and the lower end of the 95 % interval.[/]")
+                      f"{step:g} nm below ({F.milliseconds(res['solver_seconds'])}). Interval range: the critical value "
+                      "read from the upper and the lower end of the 95 % interval.[/]")
+    if args.csv:
+        console.print(f"[dim]wrote CSV to {escape(args.csv)}[/]")
     console.print(f"[dim]{CAUTION}[/]")
     return _errors.OK
 
 
-def _sweep(args, console, design, target, goal):
+def _sweep(args, console, out, design, target, goal):
     col, lo, hi = axis_spec(args.sweep, "--sweep")
     bar, update = progress_bar(console, "sweeping")
     with bar:
@@ -97,13 +137,25 @@ def _sweep(args, console, design, target, goal):
                                            sweep=(col, lo, hi), points=args.points, progress=update)
     base = res["design"]
     xs, core, shell = res["sweep_values"], res["core_radius_nm"], res["shell_thickness_nm"]
+    header = (col, "smallest_core_radius_nm", "thinnest_shell_thickness_nm")
+    if args.csv:
+        write_csv(args.csv, header, zip(xs, core, shell))
+    if args.json:
+        out.write(dumps({"target": goal, "engine": args.engine, "design": base, "sweep_column": col,
+                         "sweep_values": xs, "core_radius_nm": core, "shell_thickness_nm": shell,
+                         "caution": CAUTION}) + "\n")
+        return _errors.OK
     t = Table(title=f"critical dimensions for {goal} against {col}", title_justify="left")
-    for c in (f"{col} [{UNITS.get(col, '')}]", f"smallest core [nm] (shell {base['shell_thickness_nm']:g} nm)",
-              f"thinnest shell [nm] (core {base['core_radius_nm']:g} nm)"):
-        t.add_column(c, justify="right")
+    for c in (f"{SHORT_LABEL.get(col, col)}", f"smallest core [nm]\n(shell {F.nm(base['shell_thickness_nm'])})",
+              f"thinnest shell [nm]\n(core {F.nm(base['core_radius_nm'])})"):
+        t.add_column(escape(c), justify="right")
     for x, a, s in zip(xs, core, shell):
-        t.add_row(fmt_value(col, x), f"{a:.3g}" if math.isfinite(a) else "none", f"{s:.3g}" if math.isfinite(s) else "none")
+        t.add_row(fmt_value(col, x), F.nm(a, False) if math.isfinite(a) else "none",
+                  F.nm(s, False) if math.isfinite(s) else "none")
     console.print(t)
+    if not (np.isfinite(core).all() and np.isfinite(shell).all()):
+        console.print("[dim]none: no value in the scanned range keeps the target there; `radialpn size` at that "
+                      "point says why.[/]")
     arr = np.column_stack([xs, core, shell])
     finite = np.isfinite(arr[:, 1:])
     if finite.any():
@@ -119,7 +171,7 @@ def _sweep(args, console, design, target, goal):
         console.print(Text.assemble(("  ━ smallest core", "bold #5b8def"), "   ", ("━ thinnest shell", "bold #e8803a")))
     if args.png:
         _sweep_png(args.png, arr, col, goal)
-        console.print(f"[dim]wrote {args.png}[/]")
+        console.print(f"[dim]wrote {escape(args.png)}[/]")
     console.print(f"[dim]{args.engine} engine; confirm chosen points with `radialpn ask --verify`. {CAUTION}[/]")
     return _errors.OK
 
@@ -138,6 +190,9 @@ def _sweep_png(path, arr, col, goal):
     _png.save(fig, path)
 
 
+SEARCH_EXTRA = ("objective", "regime", "vbi_V", "solver_regime", "solver_vbi_V", "solver_meets")
+
+
 def cmd_search(args, console, out) -> int:
     target = target_from_args(args)
     fixed = design_from_args(args)
@@ -153,19 +208,35 @@ def cmd_search(args, console, out) -> int:
         res = radialpn.search(fixed, vary, args.minimize, **target, regimes=args.regime, candidates=args.candidates,
                               top=args.top, seed=args.seed, engine=args.engine, statistics=args.statistics,
                               progress=update)
-    if res["reason"]:
-        console.print(f"no answer: {res['reason']}")
-        return _errors.NO_ANSWER
     w, n, elapsed = res["winners"], res["candidates"], res["seconds"]
+    header = [c for c in list(vary) + list(SEARCH_EXTRA) if c in w]
+    rows = [[w[c][k] for c in header] for k in range(w["objective"].size)]
+    if args.csv:
+        write_csv(args.csv, ["rank"] + header, [[k + 1] + r for k, r in enumerate(rows)])
+    if args.json:
+        out.write(dumps({"winners": [dict(zip(header, r)) for r in rows], "feasible": res["feasible"],
+                         "candidates": n, "seconds": elapsed, "minimize": args.minimize, "target": res["target"],
+                         "engine": args.engine, "fixed": res["fixed"], "space": res["space"], "reason": res["reason"],
+                         "caution": CAUTION}) + "\n")
+        return _errors.NO_ANSWER if res["reason"] else _errors.OK
+    if res["reason"]:
+        console.print(f"[bold #d9534f]no answer:[/] {escape(res['reason'])}")
+        return _errors.NO_ANSWER
     t = Table(title=f"best of {n:,} candidates ({elapsed:.1f} s, {n / elapsed:,.0f}/s): minimise {args.minimize}",
               title_justify="left")
-    for c in ["#", *[f"{c} [{UNITS.get(c, '')}]" for c in vary], args.minimize, "V_bi (engine)", "solver V_bi",
-              "solver check"]:
-        t.add_column(c, justify="right")
+    for c in ["#", *[SHORT_LABEL.get(c, c) for c in vary], f"{OBJ_LABEL[args.minimize]} [nm]", "V_bi [V]",
+              "solver V_bi [V]", "target"]:
+        t.add_column(escape(c), justify="right")
+    confirmed = "solver_meets" in w
     for k in range(w["objective"].size):
-        ok_k = bool(w["solver_meets"][k])
-        t.add_row(str(k + 1), *[fmt_value(c, w[c][k]) for c in vary], f"{w['objective'][k]:.4g}", f"{w['vbi_V'][k]:.4f}",
-                  f"{w['solver_vbi_V'][k]:.4f}", Text("meets target" if ok_k else "MISSES", style="#3aa876" if ok_k else "#d9534f"))
+        ok_k = bool(w["solver_meets"][k]) if confirmed else None
+        check = (Text("✓ meets" if ok_k else "✗ MISSES", style="#3aa876" if ok_k else "#d9534f") if confirmed
+                 else Text("—"))
+        t.add_row(str(k + 1), *[fmt_value(c, w[c][k]) for c in vary], F.nm(w["objective"][k], False),
+                  F.volts(w["vbi_V"][k], False), F.volts(w["solver_vbi_V"][k], False) if confirmed else "—", check)
     console.print(t)
-    console.print(f"[dim]Feasibility judged on the lower end of the 95 % interval (conservative). {CAUTION}[/]")
+    console.print(f"[dim]{res['feasible']:,} candidates meet {res['target']}; feasibility judged on the lower end of "
+                  f"the 95 % interval (conservative). {CAUTION}[/]")
+    if args.csv:
+        console.print(f"[dim]wrote CSV to {escape(args.csv)}[/]")
     return _errors.OK

@@ -5,13 +5,16 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from rich.markup import escape
 from rich.table import Table
 from rich.text import Text
 
 import radialpn
 
 from . import _errors
+from . import _format as F
 from ._axes import UNITS, column
+from ._export import dumps, write_csv
 from ._designargs import add_design_flags, design_from_args, engine_flags, progress_bar, target_flags, target_from_args
 from ._render import CAUTION, REGIME_STYLE, regime_text
 
@@ -27,6 +30,7 @@ def register(sub) -> None:
     sp.add_argument("--regime", action="append", choices=radialpn.REGIMES, help="yield also requires this regime")
     sp.add_argument("--seed", type=int, default=0)
     sp.add_argument("--json", action="store_true", help="print the summary as JSON")
+    sp.add_argument("--csv", metavar="FILE", help="also write the summary as CSV (quantity, variable, value)")
     sp.set_defaults(handler=cmd_spread)
 
 
@@ -41,6 +45,16 @@ def _spreads(texts) -> dict:
     if not out:
         raise _errors.UsageError("--spread: give at least one, e.g. --spread shell-thickness=2nm --spread dit=50%")
     return out
+
+
+def spread_rows(r) -> list:
+    """The spread summary as long-format rows (quantity, variable, value): every value numeric."""
+    rows = [("samples", "", r["samples"]), ("answered", "", r["answered"]), ("yield", "", r["yield"])]
+    rows += [("regime_probability", k, v) for k, v in r["regime_probability"].items()]
+    rows += [("vbi_percentile_V", k, v) for k, v in r["vbi_percentiles_V"].items()]
+    rows += [("main_effect", k, v) for k, v in r["main_effects"].items()]
+    rows += [("failing_runs_mean_z", k, v) for k, v in r["failing_mean_z"].items()]
+    return rows
 
 
 BARS = " ▁▂▃▄▅▆▇█"
@@ -68,16 +82,17 @@ def cmd_spread(args, console, out) -> int:
     elapsed, vb, goal = r["seconds"], r["vbi_V"], r["target"]
     pct = list(r["vbi_percentiles_V"].values())
     failing = r["yield"] < 1.0
+    if args.csv:
+        write_csv(args.csv, ("quantity", "variable", "value"), spread_rows(r))
     if args.json:
-        import json
-
-        out.write(json.dumps({"samples": r["samples"], "answered": r["answered"], "seconds": elapsed,
-                              "regime_probability": probs, "vbi_percentiles_V": r["vbi_percentiles_V"],
-                              "target": goal, "yield": None if math.isnan(r["yield"]) else r["yield"],
-                              "main_effects": effects, "failing_runs_mean_z": shift, "engine": args.engine}) + "\n")
-        return _errors.OK
+        out.write(dumps({"samples": r["samples"], "answered": r["answered"], "seconds": elapsed, "seed": r["seed"],
+                         "regime_probability": probs, "vbi_percentiles_V": r["vbi_percentiles_V"],
+                         "target": goal, "yield": r["yield"], "main_effects": effects, "failing_runs_mean_z": shift,
+                         "spreads": {c: {"kind": k, "size": v, "relative": rel} for c, (k, v, rel) in spreads.items()},
+                         "engine": args.engine, "reason": r["reason"], "caution": CAUTION}) + "\n")
+        return _errors.NO_ANSWER if r["reason"] else _errors.OK
     if r["reason"]:
-        console.print(f"no answer: {r['reason']}")
+        console.print(f"[bold #d9534f]no answer:[/] {escape(r['reason'])}")
         return _errors.NO_ANSWER
     console.print(Text(f"{args.samples:,} growth runs around the nominal design, {elapsed:.2f} s "
                        f"({args.engine} engine, seed {args.seed})", style="bold"))
@@ -86,22 +101,22 @@ def cmd_spread(args, console, out) -> int:
     t.add_column("probability", justify="right")
     t.add_column("")
     for name, p in probs.items():
-        t.add_row(regime_text(name), f"{p:.1%}", Text("█" * int(round(30 * p)), style=REGIME_STYLE[name][0]))
+        t.add_row(regime_text(name), F.percent(p), Text("█" * int(round(30 * p)), style=REGIME_STYLE[name][0]))
     console.print(t)
     console.print(Text.assemble("V_bi  ", histogram(vb)))
-    console.print("      5 / 25 / 50 / 75 / 95 %: " + " / ".join(f"{x:.3f}" for x in pct) + " V")
+    console.print("      5 / 25 / 50 / 75 / 95 %: " + " / ".join(F.volts(x, False) for x in pct) + " V")
     y = r["yield"]
-    console.print(Text.assemble("yield (", goal, "): ", (f"{y:.1%}", "bold")))
+    console.print(Text.assemble("yield (", goal, "): ", (F.percent(y), "bold")))
     ranking = sorted(effects.items(), key=lambda kv: (-kv[1], -abs(shift[kv[0]])))
     s = Table(title="what the yield is most sensitive to", title_justify="left")
     s.add_column("variable")
     s.add_column("spread")
-    s.add_column("share of yield variance", justify="right")
-    s.add_column("failing runs sit at", justify="right")
+    s.add_column("share of\nyield variance", justify="right")
+    s.add_column("failing runs\nsit at", justify="right")
     for col, e in ranking:
         kind, size, rel = spreads[col]
         desc = f"{'±' if kind == 'uniform' else 'σ '}{size:.0%}" if rel else f"{'±' if kind == 'uniform' else 'σ '}{size:g} {UNITS.get(col, '')}"
-        s.add_row(col, desc + (" (log)" if rel and col not in ("cnl_eV", "temperature_K") else ""), f"{e:.1%}",
+        s.add_row(col, desc + (" (log)" if rel and col not in ("cnl_eV", "temperature_K") else ""), F.percent(e),
                   f"{shift[col]:+.2f} σ" if failing else "—")
     console.print(s)
     console.print("[dim]Share: main-effect share of the yield's variance (binned, Saltelli et al. 2008). "
@@ -109,5 +124,7 @@ def cmd_spread(args, console, out) -> int:
     if r["answered"] < r["samples"]:
         console.print(f"[dim]{r['samples'] - r['answered']:,} samples had no answer (e.g. {r['first_unanswered']}); "
                       "left out.[/]")
+    if args.csv:
+        console.print(f"[dim]wrote CSV to {escape(args.csv)}[/]")
     console.print(f"[dim]Relative spreads of radii, dopings and D_it act in log (20 % = a factor e^0.2 per σ). {CAUTION}[/]")
     return _errors.OK

@@ -15,6 +15,7 @@ carries the reason in ``status``.
     search               constrained search over many candidates, winners re-checked by the solver
     spread               growth-spread yield and what it is most sensitive to
     calibrate            infer D_it, neutral level and dopings from measurements on a series
+    review               all of the above for one wire (the design-review sheet's content)
 
 Answers are design estimates, not measurements: confirm a design with measurements on grown
 wires before committing a growth campaign to it.
@@ -41,6 +42,7 @@ from ._materials import (
 from ._model import SurrogateModel, available, load, load_bundle
 from ._profiles import depletion_profile
 from ._questions import critical_dimensions, profile, regime_map, search, spread, target_text
+from ._review import DEFAULT_SPREADS, review
 from ._search import main_effects
 from ._statistics import STATISTICS, fermi_half, fermi_half_inverse, intrinsic_density, reduced_level
 
@@ -117,7 +119,7 @@ OBSERVED_FLAGS = tuple(_FLAGS)
 __all__ = [
     "calibrate", "calibrate_many", "ensemble_sample", "split_rhat", "autocorr_time", "CalibrationError", "CALIBRATION_CAUTION", "OBSERVED_COLUMNS", "OBSERVED_FLAGS",
     "predict", "solve", "deplete", "profile", "regime_map", "critical_dimensions", "search", "spread",
-    "depletion_profile", "target_text", "main_effects",
+    "depletion_profile", "target_text", "main_effects", "review", "DEFAULT_SPREADS",
     "load", "load_bundle", "available", "SurrogateModel",
     "check_design", "normalize_designs", "parse_quantity", "DesignTable",
     "get_material", "material_names", "register_material", "load_material_file", "material_from_dict", "Material",

@@ -139,7 +139,8 @@ def regime_map(design: dict, x, y, cells=(32, 16), engine: str = DEFAULT_ENGINE,
         raise DesignError("cells", "expected (nx, ny)", cells)
     nx, ny = (_check_count("cells", c, 2, 400) for c in cells)
     base = {k: v for k, v in design.items() if k not in (xcol, ycol)}
-    design_row({**base, xcol: xlo, ycol: ylo})  # the fixed part must be valid before a grid is built
+    # the fixed part must be valid before a grid is built; its values go on as numbers, not as typed
+    base = {k: v for k, v in design_row({**base, xcol: xlo, ycol: ylo}).items() if k not in (xcol, ycol)}
     xs, ys = _points(xlo, xhi, nx, xlog), _points(ylo, yhi, ny, ylog)
     designs = _search.grid(base, xcol, xs, ycol, ys)
     res = answer(designs, engine, statistics, progress=progress)
@@ -173,11 +174,50 @@ def _scan_ranges(base, engine, ranges):
     return out
 
 
-def _why_none(col, lo, hi, res, goal):
-    other = "shell" if col == "core_radius_nm" else "core"
-    what = "core radius" if col == "core_radius_nm" else "shell thickness"
-    return (f"no {what} in {lo:g}-{hi:g} nm keeps {goal} with this {other} and doping: even at {hi:g} nm the "
-            f"engine gives {res}; a thicker {other}, other dopings or fewer surface states would")
+def _nm(x):
+    """A length [nm] in three significant figures, no exponent."""
+    return f"{float(f'{x:.3g}'):g}"
+
+
+def _short_goal(goal):
+    return goal.replace("V_bi >= ", "").replace("% of V_bi0", " % of V_bi0")
+
+
+def _reachable(target, v, v0):
+    """'a target <= ...' naming the best V_bi [V] (of V_bi0 [V]) that was reached."""
+    if target["vbi_min"] is not None:
+        return f"a target <= {math.floor(1000 * v) / 1000:g} V"
+    return f"a target <= {math.floor(1000 * v / v0) / 10:g} % of V_bi0"
+
+
+def _why_none(col, base, scan, predict, target, goal):
+    """One line: why no value of ``col`` in its scanned range meets the target, and what would
+    change that (the other dimension's own critical value, or the best fraction reachable)."""
+    other = "shell_thickness_nm" if col == "core_radius_nm" else "core_radius_nm"
+    word = {"core_radius_nm": "core", "shell_thickness_nm": "shell"}
+    dim = {"core_radius_nm": "radius", "shell_thickness_nm": "thickness"}
+    lo, hi = scan[col]
+    olo, ohi = scan[other]
+    at = predict({**base, col: [hi]})
+    if at["status"][0] != "ok":
+        return (f"no {word[col]} {dim[col]} in {_nm(lo)}-{_nm(hi)} nm has an answer here ({at['status'][0]}); "
+                f"a design inside the engine's domain would")
+    mine = _search.critical(predict, {**base, col: hi}, other, olo, ohi, **target)["value"]
+    if math.isfinite(mine) and base[other] < mine:
+        need = math.ceil(mine) if mine >= 10 else math.ceil(mine * 10) / 10
+        return (f"{word[other]} {_nm(base[other])} nm is below its own critical {dim[other]} {_nm(mine)} nm at these "
+                f"dopings (even with a {_nm(hi)} nm {word[col]}): no {word[col]} keeps {_short_goal(goal)}; "
+                f"a {word[other]} >= {need:g} nm would")
+    best = predict({**base, col: [hi], other: [ohi]})
+    if best["status"][0] == "ok":
+        v, v0 = float(best["vbi_V"][0]), float(best["vbi0_V"][0])
+        return (f"even a {_nm(ohi)} nm {word[other]} with a {_nm(hi)} nm {word[col]} keeps only V_bi {v:.3f} V "
+                f"({v / v0:.1%} of V_bi0 {v0:.3f} V) at these dopings and D_it: no size in the scanned ranges keeps "
+                f"{_short_goal(goal)}; {_reachable(target, v, v0)}, other dopings or fewer surface states would")
+    v = float(at["vbi_V"][0])
+    return (f"no {word[col]} {dim[col]} in {_nm(lo)}-{_nm(hi)} nm keeps {_short_goal(goal)}: at {_nm(hi)} nm V_bi is "
+            f"{v:.3f} V of V_bi0 {float(at['vbi0_V'][0]):.3f} V; a larger {word[other]}, other dopings or fewer "
+            f"surface states would")
 
 
 def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_V: float | None = None,
@@ -226,12 +266,13 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
                 "monotone": r["monotone"], "regime": r.get("answer", {}).get("regime", ""), "confirmed": None,
                 "solver_vbi_V": (math.nan, math.nan), "reason": ""}
         if not math.isfinite(r["value"]):
-            at = predict({**base, col: [hi]})
-            said = (f"V_bi {at['vbi_V'][0]:.3g} V of V_bi0 {at['vbi0_V'][0]:.3g} V" if at["status"][0] == "ok"
-                    else f"no answer ({at['status'][0]})")
-            item["reason"] = _why_none(col, lo, hi, said, goal)
+            item["reason"] = _why_none(col, base, scan, predict, target, goal)
         elif r["value"] <= lo:
-            item["reason"] = f"every value in the scanned range {lo:g}-{hi:g} nm holds; the critical value lies below it"
+            what = "core radius" if col == "core_radius_nm" else "shell thickness"
+            item["reason"] = (f"every {what} in the scanned {_nm(lo)}-{_nm(hi)} nm keeps {_short_goal(goal)}: the "
+                              f"critical value lies below {_nm(lo)} nm (the scan's lower end"
+                              + (", the bundle's trained domain); the depletion engine or the solver scans lower"
+                                 if engine == "surrogate" else ")"))
         else:
             checks.append(col)
         out[col] = item
@@ -290,13 +331,16 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     cand = _search.candidates(space, fixed, n, seed)
     best = []
     feasible = 0
+    closest = {"fraction": -math.inf, "answered": 0, "status": "", "vbi_ok": 0}
     t0 = time.perf_counter()
     for s in range(0, n, SEARCH_CHUNK):
         part = {k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()}
         res = answer(part, engine, statistics)
         ok = _search.meets(res, **target, bound="low" if "vbi_low_V" in res else "value")
         if regimes:
+            closest["vbi_ok"] += int(ok.sum())
             ok &= np.isin(res["regime"], regimes)
+        _track_closest(closest, part, res, target)
         feasible += int(ok.sum())
         obj = _search.objective(part, minimize)
         idx = np.flatnonzero(ok)
@@ -314,9 +358,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
            "target": target_text(fraction_min, vbi_min_V), "engine": engine, "space": space, "fixed": fixed,
            "reason": ""}
     if not best:
-        out["reason"] = (f"none of {n:,} candidates meets {out['target']}"
-                         + (f" in {', '.join(regimes)}" if regimes else "")
-                         + " on the conservative end of the interval; widen the ranges or relax the target")
+        out["reason"] = _why_no_winner(n, closest, space, out["target"], regimes, target)
     elif confirm:
         rows = [b[1] for b in best]
         ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics)
@@ -325,6 +367,36 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
             meets &= np.isin(ref["regime"], regimes)
         winners.update(solver_regime=ref["regime"], solver_vbi_V=ref["vbi_V"], solver_meets=meets)
     return out
+
+
+def _track_closest(closest, part, res, target):
+    """Keep the candidate whose conservative V_bi comes nearest the target (for the reason)."""
+    ok = res["status"] == "ok"
+    closest["answered"] += int(ok.sum())
+    if not ok.all() and not closest["status"]:
+        closest["status"] = str(res["status"][~ok][0])
+    if not ok.any():
+        return
+    v = np.where(ok, res.get("vbi_low_V", res["vbi_V"]), np.nan)
+    score = v / res["vbi0_V"] if target["vbi_min"] is None else v
+    i = int(np.nanargmax(score))
+    if score[i] > closest["fraction"]:
+        closest.update(fraction=float(score[i]), vbi_V=float(v[i]), vbi0_V=float(res["vbi0_V"][i]),
+                       at={k: float(part[k][i]) for k in part if np.ndim(part[k])})
+
+
+def _why_no_winner(n, closest, space, goal, regimes, target):
+    """One line: why no candidate met the target, and the nearest miss that says what would."""
+    if closest["answered"] == 0:
+        return (f"none of {n:,} candidates has an answer ({closest['status']}); ranges inside the engine's domain "
+                "would")
+    where = ", ".join(f"{k} {v:.3g}" for k, v in closest["at"].items())
+    if regimes and closest["vbi_ok"]:
+        return (f"{closest['vbi_ok']:,} of {n:,} candidates meet {goal} but none is {' or '.join(regimes)}; "
+                "wider ranges or another regime would")
+    v, v0 = closest["vbi_V"], closest["vbi0_V"]
+    return (f"none of {n:,} candidates meets {goal} on the conservative end of the interval; the closest ({where}) "
+            f"keeps V_bi {v:.3f} V ({v / v0:.1%} of V_bi0); {_reachable(target, v, v0)} or wider ranges would")
 
 
 def parse_spread(column: str, text) -> tuple:
@@ -411,6 +483,7 @@ def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, f
            "failing_mean_z": {c: float(z[c][failing].mean()) if failing.any() else 0.0 for c in parsed},
            "vbi_V": vb, "reason": "", "first_unanswered": "" if ok.all() else str(res["status"][~ok][0])}
     if not ok.any():
-        out["reason"] = f"no run was answered by the {engine} engine ({out['first_unanswered']})"
+        out["reason"] = (f"no run was answered by the {engine} engine ({out['first_unanswered']}); a nominal "
+                         "design inside the engine's domain, narrower spreads or another engine would")
     return out
 

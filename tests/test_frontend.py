@@ -73,7 +73,7 @@ def test_size_sweep_and_search(tmp_path):
     assert code == 0 and "against dit_cm2eV" in text and (tmp_path / "s.png").exists()
     code, text, _ = run(["search"] + PLAN + ["--vary", "shell-thickness:2nm:100nm", "--vbi-min", "1.2V",
                                              "--candidates", "20000", "--top", "2"])
-    assert code == 0 and "best of 20,000 candidates" in text and "meets target" in text
+    assert code == 0 and "best of 20,000 candidates" in text and "✓ meets" in text
 
 
 def test_spread_matches_direct_monte_carlo():
