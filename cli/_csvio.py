@@ -120,7 +120,11 @@ def atomic_text(target: str, option: str):
             fh.flush()
             if tmp is None:  # an unnamed file (O_TMPFILE): give it a name only now, then rename
                 named = os.path.join(folder, f".radialpn-{os.getpid()}-{id(fh):x}.part")
-                os.link(f"/proc/self/fd/{fh.fileno()}", named)
+                proc = os.open("/proc/self/fd", os.O_RDONLY)
+                try:  # linkat(..., AT_SYMLINK_FOLLOW) on the magic link: plain link() would not follow it
+                    os.link(str(fh.fileno()), named, src_dir_fd=proc, follow_symlinks=True)
+                finally:
+                    os.close(proc)
                 tmp = named
         os.replace(tmp, path)
         tmp = None

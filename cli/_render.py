@@ -3,6 +3,8 @@ render to a string."""
 
 from __future__ import annotations
 
+import math
+
 from rich.table import Table
 from rich.text import Text
 
@@ -69,6 +71,15 @@ def answer_table(row: dict, verified: bool = False) -> Table:
     t.add_row("core neutral radius", f"{F.nm(row['core_neutral_radius_nm'])} of {F.nm(row['core_radius_nm'])}")
     t.add_row("shell neutral thickness", f"{F.nm(row['shell_neutral_nm'])} of {F.nm(row['shell_thickness_nm'])}")
     t.add_row("surface band bending", F.volts(row["surface_bending_V"]))
+    if row.get("tunnel_log10") is not None and math.isfinite(row["tunnel_log10"]):  # the solver's estimate
+        import radialpn
+
+        risk = row["tunnel_log10"] > radialpn.TUNNEL_RISK_LOG10
+        t.add_row("junction field", Text.assemble(f"{row['peak_field_V_per_cm']:.3g} V/cm peak, tunnelling "
+                                                  f"estimate 10^{row['tunnel_log10']:.0f}",
+                                                  ("  ⚑ tunnelling risk: consider an intrinsic interlayer" if risk
+                                                   else "  (below the 1e-10 risk level)",
+                                                   "bold #e0a526" if risk else "dim")))
     for core, shell, what in (("core_margin", "shell_margin", "neutral fraction"),
                               ("core_majority_ln", "shell_majority_ln", "ln(majority / half doping)")):
         if core in row:

@@ -44,6 +44,7 @@ from ._profiles import depletion_profile
 from ._questions import critical_dimensions, profile, regime_map, search, spread, target_text
 from ._review import DEFAULT_SPREADS, review
 from ._search import main_effects
+from ._tunnel import TUNNEL_RISK_LOG10
 from ._statistics import STATISTICS, fermi_half, fermi_half_inverse, intrinsic_density, reduced_level
 
 __version__ = "0.2.0"
@@ -79,7 +80,7 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     return _like_input(designs, _depletion.deplete(designs, statistics, threads))
 
 
-def calibrate(observations, unknowns, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac",
+def calibrate(observations, unknowns, engine: str = "surrogate", statistics: str = "fermi-dirac",
               walkers: int | None = None, steps: int = 1500, burn: int = 500, seed: int = 0, recheck: bool = True,
               critical: bool = True, reference_row: int = 1, fraction_min: float = 0.9, progress=None) -> dict:
     """Infer unknown design columns of a measured series, with credible intervals (docs/calibrate.md).
@@ -125,7 +126,7 @@ __all__ = [
     "get_material", "material_names", "register_material", "load_material_file", "material_from_dict", "Material",
     "fermi_half", "fermi_half_inverse", "intrinsic_density", "reduced_level",
     "CORE_TYPES", "INPUT_COLUMNS", "OUTPUT_COLUMNS", "NUMERIC_COLUMNS", "REGIMES", "STATISTICS", "ENGINES",
-    "DEFAULT_ENGINE",
+    "DEFAULT_ENGINE", "TUNNEL_RISK_LOG10",
     "RadialpnError", "DesignError", "MaterialError", "BundleError",
     "__version__",
 ]

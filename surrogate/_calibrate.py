@@ -400,6 +400,8 @@ def _count(obs):
 
 def _check_options(engine, steps, burn, reference_row, n, fraction_min):
     check_engine(engine)
+    if engine not in LAPSE:  # the model table needs one engine over the whole prior support
+        raise DesignError("engine", f"one of {', '.join(LAPSE)} for calibration", engine)
     for name, v, lo in (("steps", steps, 50), ("burn", burn, 0)):
         if isinstance(v, bool) or not isinstance(v, (int, np.integer)) or not lo <= v <= 1_000_000:
             raise DesignError(name, f"a whole number in [{lo}, 1000000]", v)

@@ -166,7 +166,11 @@ def material_from_dict(name: str, values: dict) -> Material:
         if key not in values:
             raise MaterialError(f"material {name}: missing field {key!r}")
         v = values[key]
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or not np.isfinite(v):
+        try:
+            finite = not isinstance(v, bool) and isinstance(v, (int, float)) and np.isfinite(float(v))
+        except OverflowError:
+            finite = False
+        if not finite:
             raise MaterialError(f"material {name}: {key} must be a finite number in [{lo:g}, {hi:g}] (got {v!r})")
         if not lo <= v <= hi:
             raise MaterialError(f"material {name}: {key} must lie in [{lo:g}, {hi:g}] (got {v:g})")

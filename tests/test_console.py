@@ -82,7 +82,9 @@ def test_jsonl_protocol_strict_all_or_nothing():
     assert not replies[4]["ok"] and "dit_cm2eV" in replies[4]["error"]
     show = replies[5]
     assert show["id"] == "x" and show["design"]["shell_thickness_nm"] == 35 and show["design"]["dit_cm2eV"] == 5e12
-    assert replies[6]["ok"] and replies[6]["vbi_V"] is None and "outside" in replies[6]["status"]
+    # the default auto engine answers a design outside the bundle with the solver, and says so
+    assert replies[6]["ok"] and replies[6]["engine"] == "solver" and replies[6]["vbi_V"] > 0
+    assert "outside the model's domain" in replies[6]["engine_note"]
     assert replies[7]["design"]["core_radius_nm"] == 45.0
     assert replies[8]["verify"]["status"] == "ok" and replies[8]["verify"]["regime"] in radialpn.REGIMES
     assert not replies[9]["ok"] and "JSON-lines mode" in replies[9]["error"]

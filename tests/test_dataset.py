@@ -47,7 +47,7 @@ def built(tmp_path_factory):
 @pytest.mark.parametrize("patch,fragment", [
     ({"variables": {"core_radius_nm": {"min": 300, "max": 10}}}, "variables.core_radius_nm: need 1 <= min < max"),
     ({"variables": {"core_radius_nm": {"min": 10, "max": 300, "transform": "cubic"}}}, "transform: log or linear"),
-    ({"variables": {"wire_colour": {"min": 1, "max": 2}}}, "variables.wire_colour: not a numeric design-table column"),
+    ({"variables": {"wire_colour": {"min": 1, "max": 2}}}, "variables: 'wire_colour' is not a numeric design-table column"),
     ({"bundle": {"name": "t", "material": "GaAs", "core_type": "x", "seed": 1}}, "bundle.core_type: must be p or n"),
     ({"sizes": {"train": 5}}, "sizes.train: allowed range [100, 1e+08]"),
     ({"bundle": {"name": "../../x", "material": "GaAs", "core_type": "p", "seed": 1}}, "bundle.name: 1-64 letters"),

@@ -142,7 +142,7 @@ def spec_from_dict(data: dict) -> DomainSpec:
     variables = []
     for col, t in _need(data, "variables", "spec", dict).items():
         if col not in NUMERIC_COLUMNS:
-            raise SpecError(f"variables.{col}: not a numeric design-table column ({', '.join(NUMERIC_COLUMNS)})")
+            raise SpecError(f"variables: {col!r} is not a numeric design-table column ({', '.join(NUMERIC_COLUMNS)})")
         if not isinstance(t, dict):
             raise SpecError(f"variables.{col}: expected a table {{min, max, transform}}")
         lo_ok, hi_ok = NUMERIC_COLUMNS[col][:2]
@@ -164,7 +164,7 @@ def spec_from_dict(data: dict) -> DomainSpec:
     fixed = dict(fixed)
     for col in fixed:
         if col not in NUMERIC_COLUMNS or col in {v.name for v in variables}:
-            raise SpecError(f"fixed.{col}: a numeric design-table column that is not sampled")
+            raise SpecError(f"fixed: {col!r} must be a numeric design-table column that is not sampled")
         fixed[col] = _number(fixed[col], f"fixed.{col}", *NUMERIC_COLUMNS[col][:2])
     s = data.get("sizes", {})
     if not isinstance(s, dict):
