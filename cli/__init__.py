@@ -74,7 +74,7 @@ def main(argv=None, console=None, out=None, stdin=None) -> int:
             return args.handler(args, console, out, stdin=stdin)
         return args.handler(args, console, out)
     except (_errors.UsageError, radialpn.RadialpnError) as exc:
-        err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, soft_wrap=True)
+        err_console.print(f"radialpn: error: {exc}", markup=False, highlight=False, emoji=False, soft_wrap=True)
         return _errors.BAD_INPUT
     except KeyboardInterrupt:
         err_console.print("radialpn: interrupted", markup=False)
