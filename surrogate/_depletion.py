@@ -65,10 +65,11 @@ def material_arrays(material, temperature_K, statistics="fermi-dirac", core_dopi
                 v[sel] = np.nan
             continue
         m = get_material(name)
-        out["band_gap_eV"][sel] = m.band_gap(t[sel])
+        with np.errstate(all="ignore"):  # rows refused by validation may carry NaN or negative T
+            out["band_gap_eV"][sel] = m.band_gap(t[sel])
+            out["nc_cm3"][sel] = m.nc(t[sel])
+            out["nv_cm3"][sel] = m.nv(t[sel])
         out["permittivity_rel"][sel] = m.permittivity_rel
-        out["nc_cm3"][sel] = m.nc(t[sel])
-        out["nv_cm3"][sel] = m.nv(t[sel])
         out["cnl_eV"][sel] = m.cnl_eV
     out["kT_eV"] = K_B_EV * t
     return out

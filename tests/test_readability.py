@@ -5,6 +5,7 @@ import csv
 import io
 import json
 import re
+from pathlib import Path
 
 import numpy as np
 from rich.console import Console
@@ -114,7 +115,10 @@ def test_tables_fit_80_columns_with_units():
     assert "E_g [eV]" in text and "N_c [cm⁻³]" in text
     _, text, _ = run(["models"])
     # the same figures as the README's accuracy table (two decimals), read from the bundle
-    assert "99.85 %" in text and "1.34 / 7.55" in text
+    # the figures are the bundle's own validation report, printed with two decimals
+    v = json.loads((Path(dict((n, p) for n, _, _, p in radialpn.available())["gaas-pcore"]) / "bundle.json")
+                   .read_text())["validation"]
+    assert f"{100 * v['regime_accuracy']:.2f} %" in text and f"{v['vbi_mean_mV']:.2f} / {v['vbi_p99_mV']:.2f}" in text
 
 
 def test_ask_drops_the_flag_once_verified():
