@@ -1,5 +1,5 @@
 """Fuzzing the edges with generated inputs (hypothesis, fixed seed, bounded time): command-line
-flags, CSV files, material files, domain specs and the Python API. Each case asserts what the
+flags, CSV files, console JSON lines, material files, domain specs and the Python API. Each case asserts what the
 validation layer promises: no internal error (exit 1), no traceback, the exit code of its kind,
 every input cell back unchanged and the rows in order. The CI share is about 10,000 inputs; set
 RADIALPN_FUZZ=N to multiply it by N."""
@@ -121,3 +121,33 @@ def test_specs_fail_with_a_spec_error_naming_the_key(table, key, value):
         assert "\n" not in str(exc)
         return
     assert spec.name == "t" and all(np.isfinite([v.lo, v.hi]).all() for v in spec.variables)
+
+
+JSON_VALUE = st.recursive(st.one_of(st.none(), st.booleans(), st.floats(allow_nan=False), st.integers(-10, 10 ** 20),
+                                    st.text(max_size=6), st.sampled_from(["40nm", "5e12", "GaAs", "n", "solver"])),
+                          lambda inner: st.lists(inner, max_size=3) | st.dictionaries(st.text(max_size=5), inner,
+                                                                                      max_size=3), max_leaves=6)
+JSON_MESSAGE = st.one_of(
+    JSON_VALUE,
+    st.fixed_dictionaries({}, optional={"set": st.one_of(JSON_VALUE, st.dictionaries(st.sampled_from(COLS), JSON_VALUE,
+                                                                                       max_size=3)),
+                                        "cmd": st.one_of(st.sampled_from(["show", "undo", "verify", "engine", "help",
+                                                                          "bogus"]), JSON_VALUE),
+                                        "engine": st.sampled_from(["auto", "surrogate", "depletion", "quantum"]),
+                                        "design": JSON_VALUE, "id": JSON_VALUE}))
+
+
+@settings(max_examples=300 * SCALE, **FAST)
+@given(st.lists(JSON_MESSAGE, min_size=1, max_size=6))
+def test_console_json_lines_answer_every_line_in_strict_json(messages):
+    # One reply per request line, each strict JSON (no bare NaN), the session never dies.
+    def bad(name):
+        raise AssertionError(f"non-JSON constant {name}")
+
+    lines = "\n".join(json.dumps(m) for m in messages) + "\n"
+    buf, out = io.StringIO(), io.StringIO()
+    code = main(["console", "--jsonl", "--engine", "depletion"], console=Console(file=buf, width=100, color_system=None),
+                out=out, stdin=io.StringIO(lines))
+    replies = [json.loads(x, parse_constant=bad) for x in out.getvalue().splitlines()]
+    assert code == 0 and len(replies) == len(messages) and "Traceback" not in buf.getvalue()
+    assert all(isinstance(r, dict) and ("error" in r or r.get("ok")) for r in replies)
