@@ -25,7 +25,8 @@ def _uniform_in_domain(n, seed, core_type="p"):
 def test_surrogate_never_breaks_physical_bounds_or_its_own_regime():
     # Property over 100,000 uniform in-domain designs (both core types): 0 <= V_bi <= V_bi0 for
     # the estimate and both interval ends (a depleting surface cannot raise the barrier above the
-    # bulk one; docs/physics.md section 7), and the neutral extents agree with the regime (zero
+    # bulk one: the barrier is at most the difference of the bulk Fermi levels, Sze & Ng, Physics of
+    # Semiconductor Devices, 3rd ed., sec. 2.2, from memory), and the neutral extents agree with the regime (zero
     # exactly where the regime empties a region, positive where it keeps one).
     for core_type, seed in (("p", 1), ("n", 2)):
         out = radialpn.predict(_uniform_in_domain(50_000, seed, core_type), engine="surrogate")
