@@ -2,21 +2,28 @@
 docs/physics.md section 7, vectorised over arrays of designs.
 
 Geometry and charges (p-core/n-shell; an n-core design is solved as its mirror image):
-core 0 <= r < a of acceptors N_A, shell a <= r <= R of donors N_D, surface states D_it about
-the neutral level E_cnl at r = R. In a uniformly charged cylinder region whose field vanishes at
-r0, psi(r1) - psi(r0) = -(q N / 4 eps) [r1^2 - r0^2 - 2 r0^2 ln(r1/r0)] (Gauss's law in a
-cylinder; Jackson, Classical Electrodynamics, 3rd ed., sec. 1.3). With u = r_p^2/a^2,
-w = r_n^2/a^2, v = r_s^2/R^2 and h(x) = 1 - x + x ln x the balances become
+core 0 <= r < a of acceptors N_A, an undoped (intrinsic) interlayer a <= r < b (b = a +
+interlayer; b = a without one), shell b <= r <= R of donors N_D, surface states D_it about the
+neutral level E_cnl at r = R. In a uniformly charged cylinder region whose field vanishes at
+r0, psi(r1) - psi(r0) = -(q N / 4 eps) [r1^2 - r0^2 - 2 r0^2 ln(r1/r0)]; in the uncharged
+interlayer the field is that of the enclosed charge, E(r) = Q_enc / (2 pi eps r) per unit
+length, and adds the drop (Q_enc / 2 pi eps) ln(b/a) (Gauss's law in a cylinder; Jackson,
+Classical Electrodynamics, 3rd ed., sec. 1.3). With u = r_p^2/a^2, w = r_n^2/a^2 (the shell's
+zero-field radius), beta = b^2/a^2, rho = R^2/a^2, v = r_s^2/R^2 and h(x) = 1 - x + x ln x the
+balances become
 
-  junction   K a^2 [N_A h(u) + N_D h(w)] = V_bi0,   w = 1 + (N_A/N_D)(1 - u)
+  junction   K a^2 [N_A h(u) + N_A (1 - u) ln beta + N_D beta h(w/beta)] = V_bi0,
+             w = beta + (N_A/N_D)(1 - u)
   surface    N_D R (1 - v)/2 = D_it [phi_0 - K N_D R^2 h(v)],   phi_0 = E_g - delta_n - E_cnl
-  coupled    N_D a^2 (R^2/a^2 - w)/(2R) = D_it [delta_p + psi_R(u) - E_cnl]
-             psi_R = K a^2 [N_A h(u) - N_D (R^2/a^2 - 1 - w ln(R^2/a^2))]
+  coupled    N_D a^2 (rho - w)/(2R) = D_it [delta_p + psi_R(u) - E_cnl]
+             psi_R = K a^2 [N_A h(u) + N_A (1 - u) ln beta - N_D (rho - beta - w ln(rho/beta))]
 
 with K = q/(4 eps), delta_p = E_F - E_v in the neutral core, delta_n = E_c - E_F in the neutral
 shell, and V_bi0 = E_g - delta_p - delta_n (Sze & Ng, Physics of Semiconductor Devices, 3rd
-ed., 2007, sec. 2.2, eq. 2.10 in the Boltzmann limit). Each balance is monotone in its unknown
-and is solved by a vectorised safeguarded Newton iteration (``_roots``).
+ed., 2007, sec. 2.2, eq. 2.10 in the Boltzmann limit). The interlayer terms leave the
+derivatives of the junction and coupled balances as they are without one (d/dq of the junction
+balance is K a^2 N_A ln(w/u)). Each balance is monotone in its unknown and is solved by a
+vectorised safeguarded Newton iteration (``_roots``). beta = 1 gives the p-n wire exactly.
 
 Regimes: junction and surface solved alone; if the junction's shell edge r_n lies inside the
 surface's edge r_s they do not interact (regime both-neutral, or core-depleted when the junction
@@ -37,6 +44,8 @@ from ._design import REGIMES, DesignTable, categories, normalize_designs
 from ._materials import get_material
 from ._roots import solve_bracketed
 from ._statistics import check_statistics, reduced_level
+from ._tunnel import tunnel_log10
+from ._validity import beyond_parabolic, penetration_text
 
 _TINY = 1e-300
 
@@ -82,35 +91,45 @@ def bulk_levels(doping_cm3, dos_cm3, kt_eV, statistics):
     return -kt_eV * reduced_level(doping_cm3, dos_cm3, statistics)
 
 
-def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
+def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl, b=None):
     """Solve p-core/n-shell designs (all SI: m^-3, m, F/m, eV, m^-2 eV^-1) with the depletion
-    approximation. Returns a dict of internal arrays (see ``outputs``)."""
+    approximation; ``b`` [m] is the inner radius of the doped shell (default ``a``: no
+    interlayer). Returns a dict of internal arrays (see ``outputs``)."""
+    b = a if b is None else b
     K = Q / (4.0 * eps)  # [V m]: a potential is K * N [m^-3] * r^2 [m^2]
     vbi0 = Eg - dp - dn
     phi0 = Eg - dn - Ecnl
     ratio = NA / ND
     rho = (R / a) ** 2
-    lnrho = np.log(rho)
+    beta = (b / a) ** 2
+    lnrho, lnbeta = np.log(rho), np.log(beta)
     Ka2 = K * a * a
     zero, one = np.zeros_like(a), np.ones_like(a)
+    common = dict(A=Ka2 * NA, B=Ka2 * ND, ratio=ratio, beta=beta, lnbeta=lnbeta)
 
     # junction alone; unknown q = 1 - u (core depletion fraction), f increasing in q
-    pj = dict(A=Ka2 * NA, B=Ka2 * ND, ratio=ratio, vbi0=vbi0)
+    pj = dict(common, vbi0=vbi0)
 
     def fj(q, p):
-        u, w = 1.0 - q, 1.0 + p["ratio"] * q
-        return p["A"] * _h(u) + p["B"] * _h(w) - p["vbi0"], p["A"] * (_ln(w) - _ln(u))
+        u, w = 1.0 - q, p["beta"] + p["ratio"] * q
+        f = p["A"] * (_h(u) + q * p["lnbeta"]) + p["B"] * p["beta"] * _h(w / p["beta"]) - p["vbi0"]
+        return f, p["A"] * (_ln(w) - _ln(u))
 
     fj1, _ = fj(one, pj)
     u_j = zero.copy()  # core emptied by the junction alone where fj(1) <= 0
     i = np.flatnonzero(fj1 > 0.0)
     pj = {k: v[i] for k, v in pj.items()}
-    q0 = np.sqrt(2.0 * np.maximum(pj["vbi0"], 0.0) / (pj["A"] * (1.0 + pj["ratio"])))  # planar limit
+    # planar p-i-n limit: x_p (1 + N_A/N_D) x_p + 2 d x_p = V_bi0 / (2 K N_A), q ~ 2 x_p / a
+    vn = np.maximum(pj["vbi0"], 0.0) * a[i] * a[i] / (2.0 * pj["A"])
+    d = a[i] * (np.sqrt(pj["beta"]) - 1.0)
+    x0 = vn / (d + np.sqrt(d * d + (1.0 + pj["ratio"]) * vn))
+    q0 = np.where(vn > 0, 2.0 * x0 / a[i], 0.0)
     q_j, it_j = solve_bracketed(fj, pj, zero[i], one[i], x0=np.minimum(q0, 0.999))
     u_j[i] = 1.0 - q_j
-    w_j = 1.0 + ratio * (1.0 - u_j)
+    w_j = beta + ratio * (1.0 - u_j)
 
-    # surface alone; unknown q = 1 - v (surface depletion fraction of R^2), f increasing in q
+    # surface alone; unknown q = 1 - v (surface depletion fraction of R^2), f increasing in q.
+    # The doped shell ends at b; a root below b (or r_n) only means the two edges meet (coupled).
     ps = dict(L=ND * R / 2.0, D=Dit, phi0=phi0, C=K * ND * R * R)
 
     def fs(q, p):
@@ -121,8 +140,8 @@ def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     v_s = zero.copy()  # surface alone would empty the whole wire where fs(1) <= 0
     i = np.flatnonzero(fs1 > 0.0)
     ps = {k: v[i] for k, v in ps.items()}
-    b, pos = ps["L"], np.maximum(ps["phi0"], 0.0)
-    q0 = 2.0 * ps["D"] * pos / (b + np.sqrt(b * b + 2.0 * ps["D"] ** 2 * ps["C"] * pos))  # h(1-q) ~ q^2/2
+    bb, pos = ps["L"], np.maximum(ps["phi0"], 0.0)
+    q0 = 2.0 * ps["D"] * pos / (bb + np.sqrt(bb * bb + 2.0 * ps["D"] ** 2 * ps["C"] * pos))  # h(1-q) ~ q^2/2
     q_s, it_s = solve_bracketed(fs, ps, zero[i], one[i], x0=np.minimum(q0, 0.999))
     v_s[i] = 1.0 - q_s
     r_n = a * np.sqrt(w_j)
@@ -132,18 +151,18 @@ def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     # coupled (shell fully depleted); unknown s = r_p/a (u = s^2 keeps the slope finite at
     # s = 0), f increasing in s. Solved only for the coupled rows.
     def psi_R(u, w, p):
-        return p["A"] * _h(u) - p["B"] * (p["rho"] - 1.0 - w * p["lnrho"])
+        return (p["A"] * (_h(u) + (1.0 - u) * p["lnbeta"])
+                - p["B"] * (p["rho"] - p["beta"] - w * (p["lnrho"] - p["lnbeta"])))
 
     def fc(s, p):
         u = s * s
-        w = 1.0 + p["ratio"] * (1.0 - u)
+        w = p["beta"] + p["ratio"] * (1.0 - u)
         f = p["S"] * (p["rho"] - w) - p["D"] * (p["dp"] + psi_R(u, w, p) - p["Ecnl"])
         df = 2.0 * s * (p["S"] * p["ratio"] - p["D"] * p["A"] * (_ln(u) - p["lnrho"]))
         return f, df
 
     c = np.flatnonzero(coupled)
-    pc = dict(A=Ka2 * NA, B=Ka2 * ND, ratio=ratio, rho=rho, lnrho=lnrho, S=ND * a * a / (2.0 * R),
-              D=Dit, dp=dp, Ecnl=Ecnl)
+    pc = dict(common, rho=rho, lnrho=lnrho, S=ND * a * a / (2.0 * R), D=Dit, dp=dp, Ecnl=Ecnl)
     pc = {k: v[c] for k, v in pc.items()}
     fc0, _ = fc(zero[c], pc)
     fc1, _ = fc(one[c], pc)
@@ -156,27 +175,33 @@ def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     pc = {k: v[interior] for k, v in pc.items()}
     s_c, it_c = solve_bracketed(fc, pc, zero[c], one[c], x0=np.sqrt(u_j[c]))
     u[c] = s_c * s_c
-    w = 1.0 + ratio * (1.0 - u)
+    w = beta + ratio * (1.0 - u)
     return dict(K=K, vbi0=vbi0, phi0=phi0, u=u, w=w, v=v_s, r_n=r_n, r_s=r_s, coupled=coupled,
-                overcharged=overcharged, rho=rho,
-                psi_R=psi_R(u, w, dict(A=Ka2 * NA, B=Ka2 * ND, rho=rho, lnrho=lnrho)),
+                overcharged=overcharged, rho=rho, beta=beta,
+                psi_R=psi_R(u, w, dict(common, rho=rho, lnrho=lnrho)),
                 iterations=np.array([it_j.max(initial=0), it_s.max(initial=0), it_c.max(initial=0)]),
                 mean_iterations=np.array([it_j.mean() if it_j.size else 0, it_s.mean() if it_s.size else 0,
                                           it_c.mean() if it_c.size else 0]))
 
 
-def outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None):
-    """Output columns (SI lengths) and margins from the internal solution ``s``."""
-    K, u, w, coupled = s["K"], s["u"], s["w"], s["coupled"]
+def outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None, b=None):
+    """Output columns (SI lengths), margins and the junction's peak field [V/m] from the
+    internal solution ``s``. The field |E(r)| = q N_A (r^2 - r_p^2) / (2 eps r) of the depleted
+    core grows up to r = a and falls as 1/r through the interlayer and the shell (Gauss's law in
+    a cylinder, Jackson 3rd ed. sec. 1.3), so the junction's peak is q N_A a (1 - u) / (2 eps)."""
+    b = a if b is None else b
+    K, u, w, coupled, beta = s["K"], s["u"], s["w"], s["coupled"], s["beta"]
     vbi0 = s["vbi0"]
     Ka2 = K * a * a
+    lnbeta = _ln(beta)
     core_neutral = u > 0.0
+    core_drop = Ka2 * NA * (_h(u) + (1.0 - u) * lnbeta)  # axis or r_p to b
     # decoupled: V_bi = V_bi0 if the core keeps a neutral region, else the junction's full-core value
-    vbi_dec = np.where(core_neutral, vbi0, Ka2 * (NA * _h(u) + ND * _h(w)))
+    vbi_dec = np.where(core_neutral, vbi0, core_drop + Ka2 * ND * beta * _h(w / beta))
     bend_dec = K * ND * R * R * _h(s["v"])
     # coupled: potential maximum of the shell at r_m = min(r_0, R), frame psi = 0 at core neutral/axis
     xm = np.minimum(w, s["rho"])  # r_m^2 / a^2
-    psi_m = Ka2 * (NA * _h(u) - ND * (xm - 1.0 - w * _ln(xm)))
+    psi_m = core_drop - Ka2 * ND * (xm - beta - w * (_ln(xm) - lnbeta))
     vbi = np.where(coupled, psi_m, vbi_dec)
     bending = np.where(coupled, psi_m - s["psi_R"], bend_dec)
     regime = np.where(coupled, np.where(core_neutral, 2, 3), np.where(core_neutral, 0, 1))
@@ -188,13 +213,15 @@ def outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None):
         ds_all = Eg - (fermi_minus_ev_R + psi_m - s["psi_R"]) - dn
     dc = np.where(coupled, dc_all, vbi0 - vbi)
     ds = np.where(core_neutral, vbi0 - vbi, ds_all)
-    t = R - a
+    t = R - b  # doped shell thickness
     core_margin = np.where(core_neutral, np.sqrt(u), -np.sqrt(np.maximum(dc, 0.0) / (K * NA * a * a)))
     shell_margin = np.where(coupled, -np.sqrt(np.maximum(ds, 0.0) / (K * ND * t * t)), (s["r_s"] - s["r_n"]) / t)
+    surface_y = np.where(coupled, fermi_minus_ev_R, Eg - dn - bend_dec)  # E_F - E_v at r = R [eV]
     return dict(regime_code=regime, vbi_V=vbi, vbi0_V=vbi0, core_neutral_radius_m=a * np.sqrt(u),
                 junction_edge_m=np.where(coupled, a * np.sqrt(xm), s["r_n"]),
                 shell_neutral_m=np.where(coupled, 0.0, s["r_s"] - s["r_n"]), surface_bending_V=bending,
-                core_margin=core_margin, shell_margin=shell_margin, surface_barrier_V=s["phi0"])
+                core_margin=core_margin, shell_margin=shell_margin, surface_barrier_V=s["phi0"],
+                peak_field_V_per_m=2.0 * K * NA * a * (1.0 - u), surface_y=surface_y)
 
 
 def prepare(table: DesignTable, statistics: str):
@@ -215,27 +242,48 @@ def prepare(table: DesignTable, statistics: str):
     a = safe(v["core_radius_nm"], 50.0) * NM
     return dict(
         NA=safe(v["core_doping_cm3"], 1e17) * CM3_TO_M3, ND=safe(v["shell_doping_cm3"], 1e17) * CM3_TO_M3,
-        a=a, R=a + safe(v["shell_thickness_nm"], 50.0) * NM,
+        a=a, R=a + safe(v["shell_thickness_nm"], 50.0) * NM, b=a + safe(v["interlayer_nm"], 0.0) * NM,
         eps=safe(mat["permittivity_rel"], 12.0) * EPS0, Eg=safe(Eg, 1.0), dp=dp, dn=dn,
         Dit=safe(v["dit_cm2eV"], 0.0) * CM2_TO_M2, Ecnl=safe(np.where(p, cnl, Eg - cnl), 0.5),
     ), cnl
 
 
-def row_status(table: DesignTable, prob, sol, out, cnl):
+def row_status(table: DesignTable, prob, sol, out, cnl, validity: bool = False):
+    """Status per row: "ok" or why the depletion model gives no answer. ``validity`` adds the
+    limits of ``_validity`` with the reference solver's texts (the engine's own answers; the
+    solver seeds its grid without them): a neutral core's or shell's Fermi level beyond the
+    parabolic-band limit (first: the model's inputs already leave it), a charged surface whose
+    Fermi level lies that far inside a band (after the regime checks), and finite margins,
+    extents and peak field."""
     status = table.status.copy()
+    Eg, mirrored = prob["Eg"], ~table.p_core
 
     def fail(mask, text):
         sel = mask & (status == "ok")
         status[sel] = text if isinstance(text, str) else text[sel]
 
-    fail(table.values["interlayer_nm"] > 0, "interlayer_nm: the depletion engine has no interlayer; use the solver engine")
+    def beyond(mask, where, y, suffix=""):
+        for i in np.flatnonzero(mask & (status == "ok")):
+            status[i] = penetration_text(where, y[i], Eg[i], mirrored[i]) + suffix
+
+    y_core, y_shell = prob["dp"], Eg - prob["dn"]  # E_F - E_v of the neutral core and shell [eV]
+    if validity:
+        beyond(beyond_parabolic(y_core, Eg), "neutral core's", y_core)
+        beyond(beyond_parabolic(y_shell, Eg), "neutral shell's", y_shell)
     fail(sol["vbi0"] <= 0, "no built-in potential: these dopings give V_bi0 <= 0")
     acc = (prob["Dit"] > 0) & (sol["phi0"] < 0)
     if acc.any():
         fail(acc, np.array([f"surface accumulates: neutral level {c:.3g} eV lies past the shell's Fermi level; "
                             "outside the depletion model" for c in cnl], dtype=object))
     fail(sol["overcharged"], "surface states hold more charge than the depleted shell; outside the depletion model")
-    finite = np.isfinite(out["vbi_V"]) & np.isfinite(out["surface_bending_V"]) & np.isfinite(out["core_margin"])
+    keys = ("vbi_V", "surface_bending_V", "core_margin")
+    if validity:
+        y_s = out["surface_y"]
+        beyond(beyond_parabolic(y_s, Eg) & (prob["Dit"] > 0), "surface", y_s, "; surface pinned inside a band")
+        keys += ("shell_margin", "core_neutral_radius_m", "shell_neutral_m", "junction_edge_m", "peak_field_V_per_m")
+    finite = np.ones(table.n, dtype=bool)
+    for k in keys:
+        finite &= np.isfinite(out[k])
     fail(~finite, "depletion engine: no finite solution")
     return status
 
@@ -249,9 +297,13 @@ def deplete_table(table: DesignTable, statistics: str) -> dict:
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
         out = outputs(sol, **prob)
-    status = row_status(table, prob, sol, out, cnl)
+    status = row_status(table, prob, sol, out, cnl, validity=True)
     good = status == "ok"
     nan = np.nan
+    mat = material_arrays(table.material, table.values["temperature_K"], statistics)
+    with np.errstate(all="ignore"):  # Kane's estimate at the junction's peak field (_tunnel)
+        tunnel = tunnel_log10(out["peak_field_V_per_m"], prob["Eg"], mat["nc_cm3"], mat["nv_cm3"],
+                              table.values["temperature_K"])
     names = np.array(REGIMES + ("",), dtype=object)
     return {
         "regime": names[np.where(good, out["regime_code"], 4)],
@@ -266,6 +318,8 @@ def deplete_table(table: DesignTable, statistics: str) -> dict:
         "shell_margin": np.where(good, out["shell_margin"], nan),
         "surface_barrier_V": np.where(good, out["surface_barrier_V"], nan),
         "junction_edge_nm": np.where(good, out["junction_edge_m"] / NM, nan),
+        "peak_field_V_per_cm": np.where(good, out["peak_field_V_per_m"] / 100.0, nan),
+        "tunnel_log10": np.where(good, tunnel, nan),
     }
 
 

@@ -31,22 +31,29 @@ def fermi_minus_ev(prob: dict, sol: dict, r):
     """
     K, u, w, v = sol["K"], sol["u"], sol["w"], sol["v"]
     NA, ND, a, R = prob["NA"], prob["ND"], prob["a"], prob["R"]
+    b = prob.get("b", a)  # inner radius of the doped shell (interlayer a..b)
     rp, r0, rs = a * np.sqrt(u), a * np.sqrt(w), R * np.sqrt(v)
     coupled = sol["coupled"]
-    shell = r >= a
+    # the interlayer carries the core's depleted charge's field, 2 K N_A a^2 (1 - u) / r
+    # (Gauss's law in a cylinder, Jackson 3rd ed. sec. 1.3): psi(r) = psi(b) - G ln(b^2/r^2)
+    G = K * NA * a * a * (1.0 - u)
+    drop_i = G * np.log(b * b / (a * a))
     # decoupled frame: psi = 0 in the shell's neutral region
     d_shell = np.where(r <= r0, -K * ND * _region(r, r0), 0.0)
     d_shell = np.where(r >= rs, -K * ND * _region(r, rs), d_shell)
-    d_psi_p = -K * ND * _region(a, r0) - K * NA * _region(a, rp)
+    d_psi_b = -K * ND * _region(b, r0)
+    d_psi_p = d_psi_b - drop_i - K * NA * _region(a, rp)
     # coupled frame: psi = 0 at the core's neutral region (or its axis when emptied)
-    c_shell = K * NA * _region(a, rp) - K * ND * (r * r - a * a - 2.0 * r0 * r0 * np.log(np.maximum(r, _TINY) / a))
+    c_psi_b = K * NA * _region(a, rp) + drop_i
+    c_shell = c_psi_b - K * ND * (r * r - b * b - 2.0 * r0 * r0 * np.log(np.maximum(r, _TINY) / b))
     psi_shell = np.where(coupled, c_shell, d_shell)
+    psi_inter = np.where(coupled, c_psi_b, d_psi_b) - G * np.log(b * b / np.maximum(r * r, _TINY))
     psi_p = np.where(coupled, 0.0, d_psi_p)
     psi_core = psi_p + np.where(r >= rp, K * NA * _region(r, rp), 0.0)
-    psi = np.where(shell, psi_shell, psi_core)
+    psi = np.where(r < a, psi_core, np.where(r < b, psi_inter, psi_shell))
     with np.errstate(divide="ignore", invalid="ignore"):
         qs = ND * a * a * ((R / a) ** 2 - w) / (2.0 * R) / prob["Dit"]
-    psi_R = K * NA * _region(a, rp) - K * ND * (R * R - a * a - 2.0 * r0 * r0 * np.log(R / a))
+    psi_R = c_psi_b - K * ND * (R * R - b * b - 2.0 * r0 * r0 * np.log(R / b))
     offset = np.where(~coupled, prob["Eg"] - prob["dn"],
                       np.where(u > 0, prob["dp"], prob["Ecnl"] + qs - psi_R))
     return offset + psi
@@ -56,7 +63,7 @@ def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int
     """Band edges of one design by the depletion approximation.
 
     Returns ``r_nm`` [nm], ``ec_eV`` and ``ev_eV`` [eV, relative to E_F = 0], ``region`` (a
-    label per point: core-neutral, core-depleted, shell-neutral, shell-depleted), the region edges
+    label per point: core-neutral, core-depleted, interlayer, shell-neutral, shell-depleted), the region edges
     ``core_neutral_radius_nm``, ``junction_edge_nm`` (where the junction's depletion of the
     shell ends, or the shell's potential extremum when the shell is fully depleted),
     ``surface_edge_nm`` (inner edge of the surface depletion), ``core_radius_nm``,
@@ -83,8 +90,9 @@ def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int
     rp = a * np.sqrt(float(sol["u"][0]))
     rs = R * np.sqrt(float(sol["v"][0]))
     shell_neutral = (~np.array(coupled)) & (r > r0) & (r < rs)
+    b = float(prob["b"][0])
     region = np.where(r <= a, np.where(r < rp, "core-neutral", "core-depleted"),
-                      np.where(shell_neutral, "shell-neutral", "shell-depleted"))
+                      np.where(r < b, "interlayer", np.where(shell_neutral, "shell-neutral", "shell-depleted")))
     return {
         "region": region,
         "r_nm": r / NM, "ec_eV": ec, "ev_eV": ev, "regime": str(res["regime"][0]), "vbi_V": float(res["vbi_V"][0]),
