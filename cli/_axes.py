@@ -9,10 +9,10 @@ from ._designargs import DESIGN_FLAGS
 
 #: short names accepted on the command line (the design flags without dashes) -> column
 VARIABLES = {flag[2:]: col for flag, (col, _) in DESIGN_FLAGS.items()
-             if col not in ("material", "core_type", "interlayer_nm")}
+             if col not in ("material", "core_type")}
 VARIABLES.update({"shell": "shell_thickness_nm", "core": "core_radius_nm", "T": "temperature_K"})
 UNITS = {"core_radius_nm": "nm", "shell_thickness_nm": "nm", "core_doping_cm3": "cm⁻³", "shell_doping_cm3": "cm⁻³",
-         "dit_cm2eV": "cm⁻²eV⁻¹", "cnl_eV": "eV", "temperature_K": "K"}
+         "dit_cm2eV": "cm⁻²eV⁻¹", "cnl_eV": "eV", "temperature_K": "K", "interlayer_nm": "nm"}
 
 #: short column headings for tables that must fit 80 columns (docs/output.md lists them)
 SHORT_LABEL = {"core_radius_nm": "core a [nm]", "shell_thickness_nm": "shell t [nm]",

@@ -15,11 +15,12 @@ from . import _errors, _png
 from ._csvio import atomic_text
 from ._axes import UNITS, axis_spec, fmt_value
 from ._designargs import add_design_flags, design_from_args, engine_flags, progress_bar
-from ._render import CAUTION, REGIME_STYLE
+from ._render import CAUTION, REGIME_STYLE, answered_by_text
 
 #: V_bi colour scale (low -> high), eight steps of our own
 SCALE = ("#2b1d3f", "#3b2f6b", "#33508f", "#1f7a99", "#1f9e8a", "#54b86a", "#a5cc4b", "#f0d83a")
 NO_ANSWER = "#555555"
+RISK = "bold #e0a526"  #: the tunnelling flag's colour (the flag glyph carries the meaning)
 DIGITS = 10  #: the V_bi panel's levels, one digit each
 
 
@@ -72,25 +73,33 @@ def vbi_levels(vbi):
     return lo, max(hi - lo, 1e-9) / DIGITS
 
 
-def render_map(console, xs, ys, xcol, ycol, regime, vbi, mark=None):
+def render_map(console, xs, ys, xcol, ycol, regime, vbi, mark=None, tunnel=None, risk=None):
     """Two panels (regime, V_bi) with axes; ``regime``/``vbi`` shaped (len(ys), len(xs)).
     The regime panel carries a glyph per regime, the V_bi panel a digit 0-9 per tenth of the
-    V_bi range (colour as well, never colour alone). Cells are two characters wide where the
-    console has room, else one."""
+    V_bi range (colour as well, never colour alone). Where the engine gave tunnelling
+    estimates (``tunnel``, ``risk`` of the same shape), a third panel marks the cells at risk
+    with a flag. Cells are two characters wide where the console has room, else one."""
     ny, nx = regime.shape
     cw = 2 if 2 * nx + 12 <= console.width else 1
     vlo, step = vbi_levels(vbi)
     yt = _ticks(ys, ycol, min(ny, 6))
     xt = _x_ticks(xs, xcol, cw * (nx - 1))
     xlabels, kept = tick_row({cw * i: s for i, s in xt.items()}, cw * nx + 2, 10)
-    for title in ("regime", "V_bi"):
+    titles = ("regime", "V_bi")
+    if tunnel is not None and np.isfinite(tunnel).any():
+        titles += ("tunnelling risk",)
+    for title in titles:
         console.print(Text(f"{title} over {xcol} × {ycol}" + ("   (◆ the design given)" if mark else ""), style="bold"))
         for j in range(ny - 1, -1, -1):
             line = Text(f"{yt.get(j, ''):>9} ", style="dim")
             for i in range(nx):
                 here = mark is not None and mark == (j, i)
                 pad = " " * (cw - 1)
-                if title == "regime":
+                if title == "tunnelling risk":
+                    known = math.isfinite(tunnel[j, i])
+                    glyph, style = (("⚑", RISK) if risk[j, i] else ("○", "dim")) if known else ("·", NO_ANSWER)
+                    line.append(("◆" if here else glyph) + pad, style=style)
+                elif title == "regime":
                     r = regime[j, i]
                     style, glyph, _ = REGIME_STYLE.get(r, (NO_ANSWER, "·", ""))
                     line.append(("◆" if here else glyph) + pad, style=style)
@@ -114,9 +123,13 @@ def render_map(console, xs, ys, xcol, ycol, regime, vbi, mark=None):
             for r, (style, glyph, _) in REGIME_STYLE.items():
                 legend.append(f"{glyph} {r}  ", style=style)
             legend.append("· no answer", style=NO_ANSWER)
-        else:
+        elif title == "V_bi":
             legend = Text(f"  digit d: V_bi ≥ {vlo:.3f} + d×{step:.3f} V (9: up to {vlo + DIGITS * step:.3f} V)"
                           "  · no answer")
+        else:
+            legend = Text.assemble(("  ⚑ ", RISK), f"estimate above 10^{radialpn.TUNNEL_RISK_LOG10:g} (an interlayer "
+                                   "lowers it)  ", ("○ ", "dim"), "below  ", ("· ", NO_ANSWER),
+                                   "no estimate (the surrogate gives none) or no answer")
         console.print(legend)
 
 
@@ -142,12 +155,20 @@ def cmd_map(args, console, out) -> int:
                               "regime": regime.tolist(), "vbi_V": [[None if not math.isfinite(v) else v for v in row]
                                                                    for row in vbi],
                               "mark": list(m["mark"]) if m["mark"] is not None else None, "engine": args.engine,
-                              "caution": CAUTION}, allow_nan=False) + "\n")
+                              "answered_by": m["answered_by"],
+                              "tunnel_log10": [[None if not math.isfinite(v) else v for v in row]
+                                               for row in m["tunnel_log10"]],
+                              "tunnel_risk": m["tunnel_risk"].tolist(), "caution": CAUTION}, allow_nan=False) + "\n")
         return _errors.OK
-    render_map(console, xs, ys, xcol, ycol, regime, vbi, m["mark"])
+    render_map(console, xs, ys, xcol, ycol, regime, vbi, m["mark"], m["tunnel_log10"], m["tunnel_risk"])
     bad = int((res["status"] != "ok").sum())
     note = f" · {bad} cells without answer ({res['status'][res['status'] != 'ok'][0]})" if bad else ""
-    console.print(f"[dim]{nx}×{ny} designs by the {args.engine} engine{note}. {CAUTION}[/]")
+    by = answered_by_text(m["answered_by"], "cells")
+    console.print(f"[dim]{nx}×{ny} designs by the {args.engine} engine{', ' + by if by else ''}{note}. {CAUTION}[/]")
+    at_risk = int(m["tunnel_risk"].sum())
+    if at_risk:
+        console.print(f"[dim]⚑ {at_risk} cells at tunnelling risk: an intrinsic interlayer (an axis: "
+                      "interlayer:0nm:20nm) lowers the junction's peak field.[/]")
     for path, what in ((args.csv, "CSV"), (args.png, "PNG")):
         if path:
             console.print(f"[dim]wrote {what} to {path}[/]")

@@ -21,6 +21,14 @@ CAUTION = ("Design estimate, not a measurement: confirm the design with measurem
            "wires before committing a growth campaign.")
 
 
+def answered_by_text(counts: dict, unit: str = "rows") -> str:
+    """Which engine gave the numbers: "answered by the solver (28 cells), the surrogate (4 cells)"
+    from the API's ``answered_by`` counts; "" when nothing was answered."""
+    if not counts:
+        return ""
+    return "answered by " + ", ".join(f"the {name} engine ({n:,} {unit})" for name, n in counts.items())
+
+
 def regime_text(regime: str) -> Text:
     style, glyph, _ = REGIME_STYLE.get(regime, ("bold", "?", ""))
     return Text(f"{glyph} {regime}", style=style)

@@ -19,7 +19,7 @@ from ._export import dumps, write_csv
 from ._designargs import (add_design_flags, design_from_args, engine_flags, progress_bar, target_flags,
                           target_from_args)
 from ._plot import BrailleCanvas
-from ._render import CAUTION, regime_text
+from ._render import CAUTION, answered_by_text, regime_text
 
 OBJ_LABEL = {"total-radius": "a + t", "core-radius": "a", "shell-thickness": "t"}
 LOG_COLUMNS = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
@@ -34,6 +34,9 @@ def register(sub) -> None:
     sz.add_argument("--points", type=int, default=9, help="points of the sweep (default 9)")
     sz.add_argument("--png", metavar="FILE", help="sweep plot as PNG (plot extra)")
     sz.add_argument("--no-confirm", action="store_true", help="skip the reference-solver checks")
+    sz.add_argument("--sized", default="core,shell", metavar="LIST",
+                    help="what to size, comma-separated: core, shell, interlayer (the thickest interlayer that keeps "
+                         "the target and the thinnest out of tunnelling risk); default core,shell")
     _export_flags(sz)
     sz.set_defaults(handler=cmd_size)
 
@@ -47,6 +50,8 @@ def register(sub) -> None:
     se.add_argument("--candidates", type=int, default=200_000, help="random candidates (default 200000)")
     se.add_argument("--top", type=int, default=5, help="winners to show and re-check with the solver")
     se.add_argument("--seed", type=int, default=0)
+    se.add_argument("--allow-tunnelling", action="store_true",
+                    help="keep candidates whose junction is at tunnelling risk (left out by default)")
     _export_flags(se)
     se.set_defaults(handler=cmd_search)
 
@@ -57,17 +62,34 @@ def _export_flags(sp) -> None:
 
 
 SIZE_FIELDS = ("dimension", "value_nm", "optimistic_nm", "conservative_nm", "regime", "confirmed",
-               "solver_vbi_above_V", "solver_vbi_below_V", "fixed_nm", "reason")
+               "solver_vbi_above_V", "solver_vbi_below_V", "fixed_nm", "reason", "engine")
+SIZED = {"core": "core_radius_nm", "shell": "shell_thickness_nm", "interlayer": "interlayer_nm"}
+
+
+def _sized(text: str) -> tuple:
+    cols = []
+    for name in text.split(","):
+        col = SIZED.get(name.strip())
+        if col is None:
+            raise _errors.UsageError(f"--sized: each one of {', '.join(SIZED)} (got {name.strip()!r})")
+        cols.append(col)
+    return tuple(dict.fromkeys(cols))
 
 
 def size_rows(res) -> list:
-    """One row per critical dimension in ``SIZE_FIELDS`` order (for CSV and JSON)."""
+    """One row per critical dimension in ``SIZE_FIELDS`` order (for CSV and JSON); a sized
+    interlayer gives two: ``interlayer_nm`` (the thickest keeping the target; solver values
+    below, above) and ``interlayer_nm_tunnel_free`` (the thinnest out of tunnelling risk)."""
     rows = []
-    for col in ("core_radius_nm", "shell_thickness_nm"):
+    for col in (c for c in ("core_radius_nm", "shell_thickness_nm", "interlayer_nm") if c in res):
         r = res[col]
-        other = "shell_thickness_nm" if col == "core_radius_nm" else "core_radius_nm"
+        other = {"core_radius_nm": "shell_thickness_nm"}.get(col, "core_radius_nm" if col != "interlayer_nm"
+                                                              else "shell_thickness_nm")
         rows.append([col, r["value_nm"], r["optimistic_nm"], r["conservative_nm"], r["regime"], r["confirmed"],
-                     r["solver_vbi_V"][0], r["solver_vbi_V"][1], res["design"][other], r["reason"]])
+                     r["solver_vbi_V"][0], r["solver_vbi_V"][1], res["design"][other], r["reason"], r["engine"]])
+        if col == "interlayer_nm":
+            rows.append([col + "_tunnel_free", r["tunnel_free_nm"], r["tunnel_free_nm"], r["tunnel_free_nm"], "", None,
+                         float("nan"), float("nan"), res["design"][other], r["tunnel_reason"], r["tunnel_engine"]])
     return rows
 
 
@@ -77,8 +99,9 @@ def cmd_size(args, console, out) -> int:
     goal = radialpn.target_text(**target)
     if args.sweep:
         return _sweep(args, console, out, design, target, goal)
+    sized = _sized(args.sized)
     res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics,
-                                       confirm=not args.no_confirm)
+                                       confirm=not args.no_confirm, sized=sized)
     rows = size_rows(res)
     if args.csv:
         write_csv(args.csv, SIZE_FIELDS, rows)
@@ -93,7 +116,7 @@ def cmd_size(args, console, out) -> int:
     for c in ("dimension", "critical", "interval range", "regime there", f"solver ±{step:g} nm"):
         t.add_column(c)
     reasons = []
-    for col in ("core_radius_nm", "shell_thickness_nm"):
+    for col in (c for c in ("core_radius_nm", "shell_thickness_nm") if c in res):
         r = res[col]
         other = "shell_thickness_nm" if col == "core_radius_nm" else "core_radius_nm"
         label = "smallest core" if col == "core_radius_nm" else "thinnest shell"
@@ -116,17 +139,57 @@ def cmd_size(args, console, out) -> int:
             check = Text("not checked: see below")
             reasons.append(r["reason"])
         t.add_row(label, Text(F.nm(r["value_nm"]), style="bold"), rng, regime_text(r["regime"]), check)
+    if "interlayer_nm" in res:
+        _interlayer_rows(t, res, base, args, reasons)
     console.print(t)
     for why in reasons:
         console.print(f"[#e0a526]why:[/] {escape(why)}")
     if "solver_seconds" in res:
         console.print(f"[dim]✓: the reference solver meets the target {step:g} nm above and misses it "
                       f"{step:g} nm below ({F.milliseconds(res['solver_seconds'])}). Interval range: the critical value "
-                      "read from the upper and the lower end of the 95 % interval.[/]")
+                      "read from the upper and the lower end of the 95 % interval."
+                      + (" The interlayer is checked the other way round: met below, missed above." if
+                         "interlayer_nm" in res else "") + "[/]")
+    engines = sorted({res[c]["engine"] for c in sized if res[c]["engine"]})
+    if engines:
+        console.print(f"[dim]answered by the {' and the '.join(engines)} engine{'s' if len(engines) > 1 else ''}"
+                      + (f"; tunnelling judged by the {res['interlayer_nm']['tunnel_engine']} engine"
+                         if "interlayer_nm" in res else "") + ".[/]")
     if args.csv:
         console.print(f"[dim]wrote CSV to {escape(args.csv)}[/]")
     console.print(f"[dim]{CAUTION}[/]")
     return _errors.OK
+
+
+def _interlayer_rows(t, res, base, args, reasons):
+    """Two rows of the size table: the thickest interlayer keeping the target (the solver checks
+    it from below) and the thinnest out of tunnelling risk."""
+    r = res["interlayer_nm"]
+    label = f"thickest interlayer\n(core {F.nm(base['core_radius_nm'])}, shell {F.nm(base['shell_thickness_nm'])})"
+    lo, hi = r["scan_nm"]
+    if not math.isfinite(r["value_nm"]):
+        t.add_row(label, Text("none", style="bold #d9534f"), f"{F.nm(lo, False)}–{F.nm(hi)} scanned", "", "see why below")
+        reasons.append(r["reason"])
+    else:
+        check = Text("not checked (--no-confirm)" if args.no_confirm else "")
+        if r["confirmed"] is not None:
+            check = Text("✓ confirmed" if r["confirmed"] else "✗ not confirmed",
+                         style="#3aa876" if r["confirmed"] else "bold #d9534f")
+        elif r["reason"]:
+            check = Text("not checked: see below")
+            reasons.append(r["reason"])
+        ok_range = math.isfinite(r["optimistic_nm"]) and r["optimistic_nm"] != r["conservative_nm"]
+        t.add_row(label, Text(F.nm(r["value_nm"]), style="bold"),
+                  F.nm_range(r["conservative_nm"], r["optimistic_nm"]) if ok_range else "no interval",
+                  regime_text(r["regime"]), check)
+    free = r["tunnel_free_nm"]
+    if math.isfinite(free):
+        t.add_row("thinnest interlayer\nout of tunnelling risk", Text(F.nm(free), style="bold"), "", "",
+                  f"{r['tunnel_engine']} estimate ≤ 10^{radialpn.TUNNEL_RISK_LOG10:g}")
+    else:
+        t.add_row("thinnest interlayer\nout of tunnelling risk", Text("none", style="bold #d9534f"), "", "",
+                  "see why below")
+        reasons.append(r["tunnel_reason"])
 
 
 def _sweep(args, console, out, design, target, goal):
@@ -190,7 +253,8 @@ def _sweep_png(path, arr, col, goal):
     _png.save(fig, path)
 
 
-SEARCH_EXTRA = ("objective", "regime", "vbi_V", "solver_regime", "solver_vbi_V", "solver_meets")
+SEARCH_EXTRA = ("objective", "regime", "vbi_V", "tunnel_log10", "engine", "solver_regime", "solver_vbi_V",
+                "solver_tunnel_log10", "solver_meets")
 
 
 def cmd_search(args, console, out) -> int:
@@ -207,7 +271,7 @@ def cmd_search(args, console, out) -> int:
     with bar:
         res = radialpn.search(fixed, vary, args.minimize, **target, regimes=args.regime, candidates=args.candidates,
                               top=args.top, seed=args.seed, engine=args.engine, statistics=args.statistics,
-                              progress=update)
+                              progress=update, avoid_tunnelling=not args.allow_tunnelling)
     w, n, elapsed = res["winners"], res["candidates"], res["seconds"]
     header = [c for c in list(vary) + list(SEARCH_EXTRA) if c in w]
     rows = [[w[c][k] for c in header] for k in range(w["objective"].size)]
@@ -217,6 +281,8 @@ def cmd_search(args, console, out) -> int:
         out.write(dumps({"winners": [dict(zip(header, r)) for r in rows], "feasible": res["feasible"],
                          "candidates": n, "seconds": elapsed, "minimize": args.minimize, "target": res["target"],
                          "engine": args.engine, "fixed": res["fixed"], "space": res["space"], "reason": res["reason"],
+                         "avoid_tunnelling": res["avoid_tunnelling"], "tunnelling_excluded": res["tunnelling_excluded"],
+                         "tunnelling_unchecked": res["tunnelling_unchecked"], "answered_by": res["answered_by"],
                          "caution": CAUTION}) + "\n")
         return _errors.NO_ANSWER if res["reason"] else _errors.OK
     if res["reason"]:
@@ -230,13 +296,30 @@ def cmd_search(args, console, out) -> int:
     confirmed = "solver_meets" in w
     for k in range(w["objective"].size):
         ok_k = bool(w["solver_meets"][k]) if confirmed else None
-        check = (Text("✓ meets" if ok_k else "✗ MISSES", style="#3aa876" if ok_k else "#d9534f") if confirmed
+        missed = "✗ TUNNELS" if confirmed and not ok_k and res["avoid_tunnelling"] and w["solver_tunnel_risk"][k] \
+            else "✗ MISSES"
+        check = (Text("✓ meets" if ok_k else missed, style="#3aa876" if ok_k else "#d9534f") if confirmed
                  else Text("—"))
         t.add_row(str(k + 1), *[fmt_value(c, w[c][k]) for c in vary], F.nm(w["objective"][k], False),
                   F.volts(w["vbi_V"][k], False), F.volts(w["solver_vbi_V"][k], False) if confirmed else "—", check)
     console.print(t)
     console.print(f"[dim]{res['feasible']:,} candidates meet {res['target']}; feasibility judged on the lower end of "
                   f"the 95 % interval (conservative). {CAUTION}[/]")
+    by = answered_by_text(res["answered_by"], "candidates")
+    console.print(f"[dim]{_tunnel_note(res)} {by[:1].upper() + by[1:]}.[/]")
     if args.csv:
         console.print(f"[dim]wrote CSV to {escape(args.csv)}[/]")
     return _errors.OK
+
+
+def _tunnel_note(res) -> str:
+    """What the tunnelling filter did, in one sentence (counts from the API)."""
+    thr = f"10^{radialpn.TUNNEL_RISK_LOG10:g}"
+    if not res["avoid_tunnelling"]:
+        return "Tunnelling risk not filtered (--allow-tunnelling); the estimates are in --json and --csv."
+    text = (f"{res['tunnelling_excluded']:,} candidates at tunnelling risk (estimate above {thr}) left out; "
+            "--allow-tunnelling keeps them.")
+    if res["tunnelling_unchecked"]:
+        text += (f" {res['tunnelling_unchecked']:,} feasible candidates had no estimate (the surrogate gives none); "
+                 "the solver's check judges the winners (✗ TUNNELS).")
+    return text

@@ -16,7 +16,9 @@ from . import _format as F
 from ._axes import UNITS, column
 from ._export import dumps, write_csv
 from ._designargs import add_design_flags, design_from_args, engine_flags, progress_bar, target_flags, target_from_args
-from ._render import CAUTION, REGIME_STYLE, regime_text
+from ._render import CAUTION, REGIME_STYLE, answered_by_text, regime_text
+
+LOG_SPREAD = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
 
 
 def register(sub) -> None:
@@ -89,7 +91,8 @@ def cmd_spread(args, console, out) -> int:
                          "regime_probability": probs, "vbi_percentiles_V": r["vbi_percentiles_V"],
                          "target": goal, "yield": r["yield"], "main_effects": effects, "failing_runs_mean_z": shift,
                          "spreads": {c: {"kind": k, "size": v, "relative": rel} for c, (k, v, rel) in spreads.items()},
-                         "engine": args.engine, "reason": r["reason"], "caution": CAUTION}) + "\n")
+                         "engine": args.engine, "answered_by": r["answered_by"], "tunnelling_risk": r["tunnelling_risk"],
+                         "reason": r["reason"], "caution": CAUTION}) + "\n")
         return _errors.NO_ANSWER if r["reason"] else _errors.OK
     if r["reason"]:
         console.print(f"[bold #d9534f]no answer:[/] {escape(r['reason'])}")
@@ -107,6 +110,9 @@ def cmd_spread(args, console, out) -> int:
     console.print("      5 / 25 / 50 / 75 / 95 %: " + " / ".join(F.volts(x, False) for x in pct) + " V")
     y = r["yield"]
     console.print(Text.assemble("yield (", goal, "): ", (F.percent(y), "bold")))
+    if math.isfinite(r["tunnelling_risk"]):
+        console.print(f"tunnelling risk (estimate above 10^{radialpn.TUNNEL_RISK_LOG10:g}): "
+                      f"{F.percent(r['tunnelling_risk'])} of the runs with an estimate")
     ranking = sorted(effects.items(), key=lambda kv: (-kv[1], -abs(shift[kv[0]])))
     s = Table(title="what the yield is most sensitive to", title_justify="left")
     s.add_column("variable")
@@ -116,7 +122,7 @@ def cmd_spread(args, console, out) -> int:
     for col, e in ranking:
         kind, size, rel = spreads[col]
         desc = f"{'±' if kind == 'uniform' else 'σ '}{size:.0%}" if rel else f"{'±' if kind == 'uniform' else 'σ '}{size:g} {UNITS.get(col, '')}"
-        s.add_row(col, desc + (" (log)" if rel and col not in ("cnl_eV", "temperature_K") else ""), F.percent(e),
+        s.add_row(col, desc + (" (log)" if rel and col in LOG_SPREAD else ""), F.percent(e),
                   f"{shift[col]:+.2f} σ" if failing else "—")
     console.print(s)
     console.print("[dim]Share: main-effect share of the yield's variance (binned, Saltelli et al. 2008). "
@@ -124,6 +130,7 @@ def cmd_spread(args, console, out) -> int:
     if r["answered"] < r["samples"]:
         console.print(f"[dim]{r['samples'] - r['answered']:,} samples had no answer (e.g. {r['first_unanswered']}); "
                       "left out.[/]")
+    console.print(f"[dim]{answered_by_text(r['answered_by'], 'runs')}.[/]")
     if args.csv:
         console.print(f"[dim]wrote CSV to {escape(args.csv)}[/]")
     console.print(f"[dim]Relative spreads of radii, dopings and D_it act in log (20 % = a factor e^0.2 per σ). {CAUTION}[/]")

@@ -32,8 +32,10 @@ def grid(base: dict, xcol: str, xs, ycol: str, ys) -> dict:
 def meets(out: dict, vbi_min=None, fraction_min=None, bound: str = "value") -> np.ndarray:
     """Rows that keep V_bi >= vbi_min [V] and/or V_bi >= fraction_min * V_bi0 [1].
     ``bound``: "value" (the estimate), "low" or "high" (the interval's ends, where given)."""
-    v = {"value": out["vbi_V"], "low": out.get("vbi_low_V", out["vbi_V"]),
-         "high": out.get("vbi_high_V", out["vbi_V"])}[bound]
+    v = np.asarray(out["vbi_V"], dtype=float)
+    if bound != "value":  # rows another engine answered without an interval keep their value
+        end = np.asarray(out.get(f"vbi_{bound}_V", v), dtype=float)
+        v = np.where(np.isnan(end), v, end)
     ok = out["status"] == "ok"
     with np.errstate(invalid="ignore"):
         if vbi_min is not None:
@@ -44,20 +46,25 @@ def meets(out: dict, vbi_min=None, fraction_min=None, bound: str = "value") -> n
 
 
 def critical(predict, base: dict, column: str, lo: float, hi: float, vbi_min=None, fraction_min=0.9,
-             points: int = CRITICAL_GRID) -> dict:
-    """Smallest value of ``column`` in [lo, hi] from which on V_bi stays >= the target.
+             points: int = CRITICAL_GRID, decreasing: bool = False, accept=None, intervals: bool = True) -> dict:
+    """Smallest value of ``column`` in [lo, hi] from which on V_bi stays >= the target (with
+    ``decreasing``: the largest value up to which it does, e.g. an interlayer that eats the shell).
 
     Dense scan of ``points`` values, then bisection between the last failing and the first
-    holding scan point. Returns ``value`` (nan if no value in the range holds, lo if all do),
-    the range ``optimistic``..``conservative`` given by the interval's ends where the engine
-    gives intervals, and the answer at the critical value. Assumes the target is met above a
-    single threshold in the range (reported in ``monotone``)."""
+    holding scan point. Returns ``value`` (nan if no value in the range holds, lo if all do;
+    hi with ``decreasing``), the range ``optimistic``..``conservative`` given by the interval's
+    ends where the engine gives intervals, and the answer at the critical value. Assumes the
+    target is met on one side of a single threshold in the range (reported in ``monotone``).
+    ``accept(out, bound)``, if given, replaces the V_bi target: rows [bool] that hold.
+    ``intervals=False`` skips the interval scans (``optimistic`` = ``conservative`` = ``value``)."""
     xs = axis(column, lo, hi, points)
+    if decreasing:
+        xs = xs[::-1]
+    held = accept or (lambda out, bound: meets(out, vbi_min, fraction_min, bound))
 
     def scan(bound):
         out = predict({**base, column: xs})
-        ok = meets(out, vbi_min, fraction_min, bound)
-        return ok, out
+        return held(out, bound), out
 
     ok, out = scan("value")
     fails = np.flatnonzero(~ok)
@@ -70,15 +77,17 @@ def critical(predict, base: dict, column: str, lo: float, hi: float, vbi_min=Non
         a, b = xs[fails[-1]], xs[fails[-1] + 1]
         for _ in range(CRITICAL_BISECT):
             m = np.sqrt(a * b) if column in LOG_COLUMNS else 0.5 * (a + b)
-            if meets(predict({**base, column: [m]}), vbi_min, fraction_min)[0]:
+            if held(predict({**base, column: [m]}), "value")[0]:
                 b = m
             else:
                 a = m
         res["value"] = float(b)
-    for bound, key in (("high", "optimistic"), ("low", "conservative")):
+    for bound, key in (("high", "optimistic"), ("low", "conservative")) if intervals else ():
         okb, _ = scan(bound)
         f = np.flatnonzero(~okb)
         res[key] = float(xs[0]) if f.size == 0 else (float("nan") if f[-1] == xs.size - 1 else float(xs[f[-1] + 1]))
+    if not intervals:
+        res["optimistic"] = res["conservative"] = res["value"]
     if np.isfinite(res["value"]):
         at = predict({**base, column: [res["value"]]})
         res["answer"] = {k: (v[0].item() if hasattr(v[0], "item") else v[0]) for k, v in at.items()}
