@@ -79,7 +79,7 @@ def answer_table(row: dict, verified: bool = False) -> Table:
     t.add_row("core neutral radius", f"{F.nm(row['core_neutral_radius_nm'])} of {F.nm(row['core_radius_nm'])}")
     t.add_row("shell neutral thickness", f"{F.nm(row['shell_neutral_nm'])} of {F.nm(row['shell_thickness_nm'])}")
     t.add_row("surface band bending", F.volts(row["surface_bending_V"]))
-    if row.get("tunnel_log10") is not None and math.isfinite(row["tunnel_log10"]):  # the solver's estimate
+    if row.get("tunnel_log10") is not None and math.isfinite(row["tunnel_log10"]):  # solver or depletion engine
         import radialpn
 
         risk = row["tunnel_log10"] > radialpn.TUNNEL_RISK_LOG10

@@ -336,7 +336,10 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     of neutral), ``shell_margin`` (neutral thickness over shell thickness, likewise extended
     below zero), ``surface_barrier_V`` (the surface barrier at full pinning) and
     ``junction_edge_nm`` (radius where the junction's depletion of the shell ends, or the
-    shell's potential extremum when the shell is fully depleted).
+    shell's potential extremum when the shell is fully depleted), ``peak_field_V_per_cm`` (the
+    junction's peak field [V/cm], at the core's edge) and ``tunnel_log10`` (Kane's WKB estimate
+    at that field [1], ``_tunnel``). ``interlayer_nm`` > 0 gives the p-i-n wire (module
+    docstring). Rows beyond the parabolic-band limit of ``_validity`` get the solver's status.
     """
     statistics = check_statistics(statistics)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
