@@ -224,10 +224,11 @@ def outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None, b=None):
                 peak_field_V_per_m=2.0 * K * NA * a * (1.0 - u), surface_y=surface_y)
 
 
-def prepare(table: DesignTable, statistics: str):
-    """SI arrays of the mirrored p-core problem for every row of a validated table."""
+def prepare(table: DesignTable, statistics: str, mat=None):
+    """SI arrays of the mirrored p-core problem for every row of a validated table; ``mat``: the
+    table's ``material_arrays`` when the caller has them already."""
     v = table.values
-    mat = material_arrays(table.material, v["temperature_K"], statistics)
+    mat = material_arrays(table.material, v["temperature_K"], statistics) if mat is None else mat
     p = table.p_core
     Eg, kt = mat["band_gap_eV"], mat["kT_eV"]
     cnl = np.where(np.isnan(v["cnl_eV"]), mat["cnl_eV"], v["cnl_eV"])
@@ -293,14 +294,14 @@ THREADS = min(os.cpu_count() or 1, 8)  #: worker threads for large batches (nump
 
 
 def deplete_table(table: DesignTable, statistics: str) -> dict:
-    prob, cnl = prepare(table, statistics)
+    mat = material_arrays(table.material, table.values["temperature_K"], statistics)
+    prob, cnl = prepare(table, statistics, mat)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
         out = outputs(sol, **prob)
     status = row_status(table, prob, sol, out, cnl, validity=True)
     good = status == "ok"
     nan = np.nan
-    mat = material_arrays(table.material, table.values["temperature_K"], statistics)
     with np.errstate(all="ignore"):  # Kane's estimate at the junction's peak field (_tunnel)
         tunnel = tunnel_log10(out["peak_field_V_per_m"], prob["Eg"], mat["nc_cm3"], mat["nv_cm3"],
                               table.values["temperature_K"])
