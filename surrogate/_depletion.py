@@ -293,13 +293,15 @@ CHUNK_ROWS = 1 << 16  #: rows per work unit: keeps temporaries in cache
 THREADS = min(os.cpu_count() or 1, 8)  #: worker threads for large batches (numpy frees the GIL)
 
 
-def deplete_table(table: DesignTable, statistics: str) -> dict:
+def deplete_table(table: DesignTable, statistics: str, validity: bool = True) -> dict:
+    """``deplete`` on a validated table. ``validity=False`` leaves out the limits of ``_validity``
+    (the surrogate's features keep their definition, ``FEATURES_VERSION``)."""
     mat = material_arrays(table.material, table.values["temperature_K"], statistics)
     prob, cnl = prepare(table, statistics, mat)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
         out = outputs(sol, **prob)
-    status = row_status(table, prob, sol, out, cnl, validity=True)
+    status = row_status(table, prob, sol, out, cnl, validity=validity)
     good = status == "ok"
     nan = np.nan
     with np.errstate(all="ignore"):  # Kane's estimate at the junction's peak field (_tunnel)

@@ -24,7 +24,7 @@ def features(table: DesignTable, statistics: str = "fermi-dirac"):
     """Feature matrix X (n, len(FEATURE_NAMES)) [mixed units, see names] and the depletion
     engine's output mapping for the rows of a validated table. Rows the engine cannot answer
     get NaN depletion features (the trees route missing values)."""
-    da = deplete_table(table, statistics)
+    da = deplete_table(table, statistics, validity=False)  # features as defined before the validity limits
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
     a, t = v["core_radius_nm"], v["shell_thickness_nm"]
