@@ -44,6 +44,7 @@ class SurrogateModel:
             parts = [("regime", part("regime")), ("vbi", part("vbi")), ("difficulty", part("difficulty"))]
             parts += [(t, part(f"aux_{t}")) for t in AUX]
             ensembles = [TreeEnsemble(a) for _, a in parts]
+            self.parts_ = dict(zip((name for name, _ in parts), ensembles))
             if ensembles[0].n_outputs != len(REGIMES) or any(e.n_outputs != 1 for e in ensembles[1:]):
                 raise ValueError("tree models have the wrong number of outputs")
             self.forest_ = TreeEnsemble.stack(ensembles)  # one walk answers every tree model
@@ -67,6 +68,16 @@ class SurrogateModel:
                                                                             atol=1e-9):
                 raise BundleError(f"bundle {self.name}: trees do not reproduce their reference rows")
         self._check_domain_against_data()
+        self._forests = {MODELS: (self.forest_, self.slices_)}
+
+    def _forest(self, models: tuple):
+        """(ensemble, output slices) of just the tree models ``models`` (stacked once, cached)."""
+        if models not in self._forests:
+            parts = [(m, self.parts_[m]) for m in MODELS if m in models]
+            edges = np.cumsum([0] + [e.n_outputs for _, e in parts])
+            self._forests[models] = (TreeEnsemble.stack([e for _, e in parts]),
+                                     {m: slice(a, b) for (m, _), a, b in zip(parts, edges[:-1], edges[1:])})
+        return self._forests[models]
 
     def _check_domain_against_data(self):
         """The stated domain must lie inside the span of the design variables the models were
@@ -108,7 +119,7 @@ class SurrogateModel:
             why[bad] = f"outside the model's domain: {col} must be {float(v):g}"
         return why
 
-    def predict(self, designs, second_opinion: bool = False, class_probs: bool = False) -> dict:
+    def predict(self, designs, second_opinion: bool = False, class_probs: bool = False, models=None) -> dict:
         """Answer designs (mapping of column -> array, list of row dicts, or DataFrame).
 
         Returns a mapping of output columns to numpy arrays, one entry per input row.
@@ -117,7 +128,13 @@ class SurrogateModel:
         batches (about 2e4 rows/s against 1e5 without; benchmarks/bench_surrogate.py).
         ``class_probs``: also return the probability of each regime, ``PROB_COLUMNS`` [1]
         (the temperature-scaled softmax whose maximum is ``regime_prob``).
+        ``models``: evaluate only these of ``MODELS`` (default all; a question that reads only
+        some columns saves the others' trees): ``"vbi"`` gives ``vbi_V``, ``"difficulty"`` the
+        interval, ``"regime"`` the regime, its probability and the confirm flag, an extent model
+        its column (and brings ``"regime"``, which clips it). Columns of models left out are NaN
+        (regime "", confirm False); the rest are those of the full evaluation.
         """
+        models = _needed(models, second_opinion)
         table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
         n = table.n
         why = self.domain_check(table)
@@ -136,7 +153,11 @@ class SurrogateModel:
             sub = table.take(rows)
             X, da = features(sub, self.statistics)
             good = np.isfinite(X).all(1) & (da["status"] == "ok")
-            raw = self.forest_.raw(X)
+            forest, sl = self._forest(models)
+            raw = np.full((X.shape[0], self.forest_.n_outputs), np.nan)
+            part = forest.raw(X)
+            for name, where in sl.items():
+                raw[:, self.slices_[name]] = part[:, where]
             sl = self.slices_
             z = raw[:, sl["regime"]] / self.temperature_
             z -= z.max(1, keepdims=True)
@@ -177,6 +198,18 @@ class SurrogateModel:
                 gp_cols["vbi_gp_low_V"][rows] = gv - self.q_gp_ * gs
                 gp_cols["vbi_gp_high_V"][rows] = gv + self.q_gp_ * gs
                 flag |= np.abs(gv - vbi) > np.maximum(half, self.q_gp_ * gs)
+            if "regime" not in models:
+                regime[rows] = ""
+                flag[:] = False
+                for v in [out["regime_prob"]] + list(prob_cols.values()):
+                    v[rows] = np.nan
+            for t in AUX:
+                if t not in models:
+                    out[t][rows] = np.nan
+            if "vbi" not in models:
+                out["vbi_V"][rows] = np.nan
+            if "difficulty" not in models or "vbi" not in models:
+                out["vbi_low_V"][rows] = out["vbi_high_V"][rows] = np.nan
             confirm[rows] = flag
             bad = rows[~good]
             if bad.size:
@@ -189,6 +222,24 @@ class SurrogateModel:
                 "engine": np.full(n, "surrogate", dtype=object), "status": status, "regime_prob": out["regime_prob"],
                 "vbi_low_V": out["vbi_low_V"], "vbi_high_V": out["vbi_high_V"], "in_domain": in_domain,
                 "confirm_with_solver": confirm, **gp_cols, **prob_cols}
+
+
+MODELS = ("regime", "vbi", "difficulty") + AUX  #: a bundle's tree models, in their stacked order
+
+
+def _needed(models, second_opinion=False) -> tuple:
+    """``models`` (None: all) as a tuple in ``MODELS`` order, with what they depend on."""
+    if models is None:
+        return MODELS
+    want = set(models)
+    unknown = want - set(MODELS)
+    if unknown:
+        raise ValueError(f"models: each one of {', '.join(MODELS)} (got {sorted(unknown)[0]!r})")
+    if want & set(AUX):
+        want.add("regime")  # the regime clips the extents
+    if second_opinion:
+        want |= {"vbi", "difficulty"}  # the GP's disagreement flag compares with the interval
+    return tuple(m for m in MODELS if m in want)
 
 
 FEATURE_INDEX = {"core_radius_nm": 0, "shell_thickness_nm": 1, "core_doping_cm3": 2, "shell_doping_cm3": 3,
@@ -284,21 +335,24 @@ def available() -> list:
     return out
 
 
-def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = False) -> dict:
+def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = False, models=None) -> dict:
     """Answer designs of any material/core type with the matching bundles (rows without one
-    get a status). ``class_probs`` adds ``PROB_COLUMNS``."""
+    get a status). ``class_probs`` adds ``PROB_COLUMNS``; ``models`` as for ``predict``."""
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     n = table.n
     result = None
-    keys = {(m, bool(pc)) for m, pc in zip(table.material, table.p_core) if m}
-    for mat, pc in sorted(keys):
-        sel = np.flatnonzero((table.material == mat) & (table.p_core == pc) & (table.status == "ok"))
+    from ._design import categories
+
+    names, inv = categories(table.material, n)
+    keys = [(m, pc, (inv == k) & (table.p_core == pc)) for k, m in enumerate(names) if m for pc in (False, True)]
+    for mat, pc, same in sorted((k for k in keys if k[2].any()), key=lambda k: k[:2]):
+        sel = np.flatnonzero(same & (table.status == "ok"))
         try:
             model = load(mat, "p" if pc else "n")
         except BundleError as exc:
             part = {"status": np.full(sel.size, str(exc), dtype=object)}
         else:
-            part = model.predict(table.take(sel), second_opinion, class_probs)
+            part = model.predict(table.take(sel), second_opinion, class_probs, models)
         if result is None:
             result = empty_result(n, second_opinion, table.status, class_probs)
         for k, v in part.items():

@@ -23,6 +23,8 @@ from ._search import LOG_COLUMNS
 CRITICAL_RANGES_NM = {"core_radius_nm": (5.0, 500.0), "shell_thickness_nm": (1.0, 500.0)}
 CONFIRM_STEP_NM = 0.5  #: the solver checks this far above and below each critical value [nm]
 SEARCH_CHUNK = 100_000  #: candidates per engine call in ``search``
+SEARCH_MODELS = ("vbi", "difficulty")  #: surrogate trees a search reads (V_bi, interval; + regime if asked)
+SPREAD_MODELS = ("regime", "vbi")  #: surrogate trees a spread reads (V_bi and its regime shares)
 OBJECTIVES = ("total-radius", "core-radius", "shell-thickness")
 SWEPT = tuple(c for c in NUMERIC if c != "interlayer_nm")  #: the columns a map, sweep or spread may vary
 
@@ -335,7 +337,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     t0 = time.perf_counter()
     for s in range(0, n, SEARCH_CHUNK):
         part = {k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()}
-        res = answer(part, engine, statistics)
+        res = answer(part, engine, statistics, models=SEARCH_MODELS + (("regime",) if regimes else ()))
         ok = _search.meets(res, **target, bound="low" if "vbi_low_V" in res else "value")
         if regimes:
             closest["vbi_ok"] += int(ok.sum())
@@ -350,6 +352,9 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
         best = sorted(best, key=lambda b: b[0])[:top]
         if progress:
             progress(min(s + SEARCH_CHUNK, n), n)
+    if best and not regimes:  # the winners' regime: their full answer (the scan skipped the regime trees)
+        again = answer({k: [b[1][k] for b in best] for k in best[0][1]}, engine, statistics)
+        best = [(o, row, str(r), v) for (o, row, _, v), r in zip(best, again["regime"])]
     seconds = time.perf_counter() - t0
     winners = {c: np.array([b[1][c] for b in best], dtype=float) for c in space}
     winners.update(objective=np.array([b[0] for b in best], dtype=float),
@@ -462,7 +467,7 @@ def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, f
         raise DesignError(missing[0], "a spread needs the nominal value in the design")
     t0 = time.perf_counter()
     samples_ = _search.spread_samples(nominal, parsed, n, seed)
-    res = answer(samples_, engine, statistics, progress=progress)
+    res = answer(samples_, engine, statistics, progress=progress, models=SPREAD_MODELS)
     seconds = time.perf_counter() - t0
     ok = res["status"] == "ok"
     success = _search.meets(res, **target)
