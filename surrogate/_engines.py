@@ -14,6 +14,7 @@ from ._depletion import deplete
 from ._design import DesignTable, normalize_designs
 from ._errors import DesignError
 from ._model import empty_result, predict_bundles
+from ._single import one_design
 from ._statistics import check_statistics
 
 ENGINES = ("auto", "surrogate", "depletion", "solver")
@@ -112,7 +113,7 @@ def answer(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac
     surrogate's tree models a question needs (``SurrogateModel.predict``); other engines ignore it."""
     check_engine(engine)
     statistics = check_statistics(statistics)
-    table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
+    table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
 
     def run(part):
         if engine == "auto":

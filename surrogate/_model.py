@@ -14,6 +14,7 @@ from ._bundle import MAX_BYTES, BundleError, find_bundles, read_bundle
 from ._design import REGIMES, DesignTable, normalize_designs
 from ._features import FEATURE_NAMES, FEATURES_VERSION, features
 from ._gp import GaussianProcess
+from ._single import features_one, one_design
 from ._trees import TreeEnsemble
 
 CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for the solver
@@ -100,6 +101,8 @@ class SurrogateModel:
 
     def domain_check(self, table: DesignTable) -> np.ndarray:
         """Per row: "" inside the trained domain, else the first reason it is outside."""
+        if table.n == 1 and table.status[0] == "ok":
+            return np.array([self._domain_one(table)], dtype=object)
         why = np.full(table.n, "", dtype=object)
         mat_ok = table.material == self.material
         why[~mat_ok] = f"outside the model's domain: material is not {self.material}"
@@ -119,6 +122,25 @@ class SurrogateModel:
             why[bad] = f"outside the model's domain: {col} must be {float(v):g}"
         return why
 
+    def _domain_one(self, table: DesignTable) -> str:
+        """``domain_check`` of a one-row table in plain floats (the same tests, in the same order)."""
+        if table.material[0] != self.material:
+            return f"outside the model's domain: material is not {self.material}"
+        if bool(table.p_core[0]) != (self.core_type == "p"):
+            return f"outside the model's domain: core_type is not {self.core_type}"
+        for col, (lo, hi) in self.domain.items():
+            x = float(table.values[col][0])
+            if col == "cnl_eV" and x != x:
+                from ._materials import get_material
+
+                x = get_material(self.material).cnl_eV
+            if not (x >= lo * (1 - 1e-12) and x <= hi * (1 + 1e-12)):
+                return f"outside the model's domain: {col} {x:g} not in [{lo:g}, {hi:g}]"
+        for col, v in self.fixed.items():
+            if float(table.values[col][0]) != float(v):
+                return f"outside the model's domain: {col} must be {float(v):g}"
+        return ""
+
     def predict(self, designs, second_opinion: bool = False, class_probs: bool = False, models=None) -> dict:
         """Answer designs (mapping of column -> array, list of row dicts, or DataFrame).
 
@@ -130,12 +152,13 @@ class SurrogateModel:
         (the temperature-scaled softmax whose maximum is ``regime_prob``).
         ``models``: evaluate only these of ``MODELS`` (default all; a question that reads only
         some columns saves the others' trees): ``"vbi"`` gives ``vbi_V``, ``"difficulty"`` the
-        interval, ``"regime"`` the regime, its probability and the confirm flag, an extent model
+        interval, ``"regime"`` the regime and its probability, an extent model
         its column (and brings ``"regime"``, which clips it). Columns of models left out are NaN
-        (regime "", confirm False); the rest are those of the full evaluation.
+        (regime ""); the rest are those of the full evaluation, but ``confirm_with_solver``
+        reads only the models evaluated (False without the regime).
         """
         models = _needed(models, second_opinion)
-        table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
+        table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
         n = table.n
         why = self.domain_check(table)
         status = table.status.copy()
@@ -151,7 +174,8 @@ class SurrogateModel:
         rows = np.flatnonzero(in_domain)
         if rows.size:
             sub = table.take(rows)
-            X, da = features(sub, self.statistics)
+            one = features_one(sub, self.statistics) if sub.n == 1 else None  # the scalar fast path
+            X, da = one if one is not None else features(sub, self.statistics)
             good = np.isfinite(X).all(1) & (da["status"] == "ok")
             forest, sl = self._forest(models)
             raw = np.full((X.shape[0], self.forest_.n_outputs), np.nan)
@@ -181,7 +205,7 @@ class SurrogateModel:
             out["vbi0_V"][rows] = da["vbi0_V"]
             # extents follow the regime: zero where it empties a region; where it keeps one, at
             # least MIN_NEUTRAL_NM (a contradicting extent model is overruled and the row flagged)
-            core_kept, shell_kept = np.isin(code, (0, 2)), np.isin(code, (0, 1))
+            core_kept, shell_kept = (code == 0) | (code == 2), (code == 0) | (code == 1)
             flag = p.max(1) < CONFIRM_PROB
             for t in AUX:
                 val = da[t] + raw[:, sl[t]][:, 0]
@@ -340,6 +364,13 @@ def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = F
     get a status). ``class_probs`` adds ``PROB_COLUMNS``; ``models`` as for ``predict``."""
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     n = table.n
+    if n == 1 and table.status[0] == "ok":  # one design: its bundle's answer is the whole answer
+        try:
+            model = load(table.material[0], "p" if table.p_core[0] else "n")
+        except BundleError:
+            pass
+        else:
+            return model.predict(table, second_opinion, class_probs, models)
     result = None
     from ._design import categories
 

@@ -152,7 +152,7 @@ class TreeEnsemble:
             rank[sel] = np.searchsorted(cuts[f], thr[sel])
         feat[is_leaf] = 0
         self._binned = dict(d=n_features, feat=feat, rank=rank, next=nxt, cuts=cuts, dtype=dtype,
-                            roots=np.arange(T), value=self.value[old])
+                            roots=np.arange(T), value=self.value[old], threshold=np.where(is_leaf, np.inf, thr))
         return self._binned
 
     def codes(self, X: np.ndarray) -> np.ndarray:
@@ -175,11 +175,23 @@ class TreeEnsemble:
             node = nxt[node] + (flat[base + feat[node]] > rank[node])
         return value[node] @ self.onehot + self.baseline
 
+    def _walk_one(self, x: np.ndarray) -> np.ndarray:
+        """Raw scores (1, n_outputs) of one row without missing values: the walk on the float
+        thresholds (a rank table costs more than it saves for one row)."""
+        b = self._bins(x.size)
+        feat, thr, nxt = b["feat"], b["threshold"], b["next"]
+        node = b["roots"]
+        for _ in range(self.depth):
+            node = nxt[node] + (x[feat[node]] > thr[node])
+        return (b["value"][node] @ self.onehot + self.baseline)[None, :]
+
     def raw(self, X: np.ndarray, n_threads: int | None = None) -> np.ndarray:
         """Raw scores (n, n_outputs): the binned walk, the plain walk for rows with missing
         values; chunks of rows over ``threads(n_threads)`` threads for large batches."""
         X = np.ascontiguousarray(X, dtype=np.float64)
         n = X.shape[0]
+        if n == 1 and not np.isnan(X).any():
+            return self._walk_one(X[0])
         missing = np.isnan(X).any(1)
         if missing.any():
             out = np.empty((n, self.n_outputs))
