@@ -61,6 +61,7 @@ class SurrogateModel:
                 raise ValueError(f"feature arrays do not have {d} columns")
             if self.forest_.feature.max(initial=0) >= d or self.forest_.feature.min(initial=0) < 0:
                 raise ValueError("a tree splits on a feature that does not exist")
+            self.forest_._renumbered()  # the fast walk's numbering: each node but a root has one parent
         except (KeyError, ValueError, IndexError) as exc:
             raise BundleError(f"bundle {self.name}: arrays incomplete or inconsistent ({exc})") from None
         raw = self.forest_.raw_numpy(self.ref_X_)

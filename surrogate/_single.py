@@ -31,7 +31,6 @@ from ._roots import ROOT_MAXITER, ROOT_XTOL
 _TINY = 1e-300
 MATERIAL_CACHE = 256  #: (material, temperature) entries kept; the cache is cleared when full
 _material_cache: dict = {}
-_tables = None  # Python lists of the Fermi-Dirac tables (built once from _statistics')
 
 
 def one_design(designs):
@@ -98,30 +97,24 @@ def material_constants(name: str, temperature_K: float) -> tuple:
     return hit
 
 
-def _get_tables():
-    global _tables
-    if _tables is None:
-        _, lnf, dlnf = _st._get_table()
-        g0, step, eta, deta = _st._get_inverse_table()
-        _tables = (lnf.tolist(), dlnf.tolist(), float(g0), float(step), eta.tolist(), deta.tolist())
-    return _tables
-
-
 def _fermi_half(eta):
     """F_1/2 and F_-1/2 of one eta, as ``_statistics.fermi_half_and_derivative``."""
-    lnf, dlnf = _get_tables()[:2]
     if eta < _st.ETA_LO:
         e = math.exp(eta)
         return e - e * e / 2.0 ** 1.5, e - e * e / 2.0 ** 0.5
     if eta > _st.ETA_HI:
         f, fm = _st._sommerfeld(np.array([eta]))
         return float(f[0]), float(fm[0])
+    tab = _st._forward_table()
+    lnf, dlnf = tab["lnf"], tab["dlnf"]
     h = _st.TABLE_STEP
     s = (eta - _st.ETA_LO) / h
-    i = min(int(s), len(lnf) - 2)
+    i = min(int(s), lnf.size - 2)
+    if not (tab["done"][i // _st.TABLE_BLOCK] and tab["done"][(i + 1) // _st.TABLE_BLOCK]):
+        _st._ensure_forward(i, i + 1)
     u = s - i
-    y0, y1 = lnf[i], lnf[i + 1]
-    d0, d1 = dlnf[i] * h, dlnf[i + 1] * h
+    y0, y1 = float(lnf[i]), float(lnf[i + 1])
+    d0, d1 = float(dlnf[i]) * h, float(dlnf[i + 1]) * h
     u2 = u * u
     u3 = u2 * u
     g = (2 * u3 - 3 * u2 + 1) * y0 + (u3 - 2 * u2 + u) * d0 + (-2 * u3 + 3 * u2) * y1 + (u3 - u2) * d1
@@ -132,21 +125,24 @@ def _fermi_half(eta):
 
 def _fermi_half_inverse(y):
     """eta with F_1/2(eta) = y > 0, as ``_statistics.fermi_half_inverse``."""
-    _, _, g0, step, eta_t, deta_t = _get_tables()
+    inv = _st._inverse_table()
+    g0, step, eta_t, deta_t = float(inv["g0"]), inv["step"], inv["eta"], inv["deta"]
     lny = math.log(y)
-    g1 = g0 + step * (len(eta_t) - 1)
+    g1 = g0 + step * (eta_t.size - 1)
     if lny < g0:
         eta = lny + y / 2.0 ** 1.5
     elif lny > g1:
         eta = (0.75 * _st._SQRT_PI * y) ** (2.0 / 3.0)
     else:
         s = (lny - g0) / step
-        i = min(max(int(s), 0), len(eta_t) - 2)
+        i = min(max(int(s), 0), eta_t.size - 2)
+        if not (inv["done"][i // _st.INVERSE_BLOCK] and inv["done"][(i + 1) // _st.INVERSE_BLOCK]):
+            _st._ensure_inverse(i, i + 1)
         u = s - i
         u2 = u * u
         u3 = u2 * u
-        eta = ((2 * u3 - 3 * u2 + 1) * eta_t[i] + (u3 - 2 * u2 + u) * step * deta_t[i]
-               + (-2 * u3 + 3 * u2) * eta_t[i + 1] + (u3 - u2) * step * deta_t[i + 1])
+        eta = ((2 * u3 - 3 * u2 + 1) * float(eta_t[i]) + (u3 - 2 * u2 + u) * step * float(deta_t[i])
+               + (-2 * u3 + 3 * u2) * float(eta_t[i + 1]) + (u3 - u2) * step * float(deta_t[i + 1]))
     for _ in range(30):
         f, df = _fermi_half(eta)
         d = (math.log(f) - lny) * f / df

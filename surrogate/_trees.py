@@ -69,7 +69,7 @@ class TreeEnsemble:
         self.child = np.ascontiguousarray(np.column_stack([self.left, self.right]))  # [node, go right]
         self.onehot = np.zeros((self.roots.size, self.baseline.size))
         self.onehot[np.arange(self.roots.size), self.tree_class] = 1.0
-        self._binned = None  # renumbered nodes and per-feature threshold ranks, built on first use
+        self._renum = self._binned = None  # renumbered nodes, then threshold ranks: built on first use
 
     @classmethod
     def stack(cls, ensembles) -> "TreeEnsemble":
@@ -119,11 +119,11 @@ class TreeEnsemble:
             out[s:s + step] = self.value[node] @ self.onehot + self.baseline
         return out
 
-    def _bins(self, n_features: int):
-        """Walk tables (built once): node ids with right = left + 1, per-node threshold rank,
-        per-feature sorted thresholds, roots and leaf values in the new numbering."""
-        if self._binned is not None and self._binned["d"] == n_features:
-            return self._binned
+    def _renumbered(self) -> dict:
+        """Node ids with right = left + 1 (built once): per node its feature, float threshold
+        (+inf at leaves) and next-node base; roots and leaf values in the new numbering."""
+        if self._renum is not None:
+            return self._renum
         n, T = self.feature.size, self.roots.size
         leaf = self.left == np.arange(n)
         inner = np.flatnonzero(~leaf)
@@ -140,19 +140,29 @@ class TreeEnsemble:
         is_leaf = leaf[old]
         nxt = np.where(is_leaf, np.arange(n), new[self.left[old]])  # a leaf points to itself
         thr = self.threshold[old]
+        self._renum = dict(feat=np.where(is_leaf, 0, feat), next=nxt, roots=np.arange(T), value=self.value[old],
+                           threshold=np.where(is_leaf, np.inf, thr), split_feature=feat, is_leaf=is_leaf, split=thr)
+        return self._renum
+
+    def _bins(self, n_features: int) -> dict:
+        """The renumbered walk plus per-node threshold ranks and per-feature sorted thresholds
+        (built once per feature count)."""
+        if self._binned is not None and self._binned["d"] == n_features:
+            return self._binned
+        r = self._renumbered()
+        feat, is_leaf, thr = r["split_feature"], r["is_leaf"], r["split"]
         cuts, width = [], 0
         for f in range(n_features):
-            cuts.append(np.unique(thr[(feat == f) & ~is_leaf]))
+            c = np.sort(thr[(feat == f) & ~is_leaf])
+            cuts.append(c[np.concatenate(([True], c[1:] != c[:-1]))] if c.size else c)  # np.unique, without its import cost
             width = max(width, cuts[-1].size)
         dtype = np.uint8 if width < 255 else np.uint16
         never = np.iinfo(dtype).max  # above every rank: a leaf never steps right
-        rank = np.full(n, never, dtype=dtype)
+        rank = np.full(feat.size, never, dtype=dtype)
         for f in range(n_features):
             sel = (feat == f) & ~is_leaf
             rank[sel] = np.searchsorted(cuts[f], thr[sel])
-        feat[is_leaf] = 0
-        self._binned = dict(d=n_features, feat=feat, rank=rank, next=nxt, cuts=cuts, dtype=dtype,
-                            roots=np.arange(T), value=self.value[old], threshold=np.where(is_leaf, np.inf, thr))
+        self._binned = dict(r, d=n_features, rank=rank, cuts=cuts, dtype=dtype)
         return self._binned
 
     def codes(self, X: np.ndarray) -> np.ndarray:
@@ -178,7 +188,7 @@ class TreeEnsemble:
     def _walk_one(self, x: np.ndarray) -> np.ndarray:
         """Raw scores (1, n_outputs) of one row without missing values: the walk on the float
         thresholds (a rank table costs more than it saves for one row)."""
-        b = self._bins(x.size)
+        b = self._renumbered()
         feat, thr, nxt = b["feat"], b["threshold"], b["next"]
         node = b["roots"]
         for _ in range(self.depth):
