@@ -375,7 +375,10 @@ def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = F
     result = None
     from ._design import categories
 
-    names, inv = categories(table.material, n)
+    if n and (table.material == table.material[0]).all():  # one material (the usual case): no text scan
+        names, inv = [table.material[0]], np.zeros(n, dtype=np.intp)
+    else:
+        names, inv = categories(table.material, n)
     keys = [(m, pc, (inv == k) & (table.p_core == pc)) for k, m in enumerate(names) if m for pc in (False, True)]
     for mat, pc, same in sorted((k for k in keys if k[2].any()), key=lambda k: k[:2]):
         sel = np.flatnonzero(same & (table.status == "ok"))

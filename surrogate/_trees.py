@@ -33,16 +33,22 @@ MAX_THREADS = 8
 
 
 def threads(explicit: int | None = None) -> int:
-    """Worker threads for large batches: ``explicit``, else $RADIALPN_THREADS, else
-    $OMP_NUM_THREADS, else the number of cores (at most ``MAX_THREADS``). One thread per chunk
-    of rows; nothing inside a chunk runs in parallel, so threads never oversubscribe cores."""
+    """Worker threads for large surrogate batches: ``explicit``, else $RADIALPN_THREADS, else
+    $OMP_NUM_THREADS, else the number of cores this process may run on (its CPU affinity), at
+    most ``MAX_THREADS``. One thread per chunk of ``WALK_CHUNK`` rows, taken from a shared queue;
+    nothing inside a chunk runs in parallel, so the threads never exceed that count and a
+    thread slowed by another process holds up no other (no barrier between chunks)."""
     for value in (explicit, os.environ.get("RADIALPN_THREADS"), os.environ.get("OMP_NUM_THREADS")):
         try:
             if value is not None and int(value) >= 1:
                 return min(int(value), MAX_THREADS)
         except (TypeError, ValueError):
             continue
-    return max(1, min(os.cpu_count() or 1, MAX_THREADS))
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # not every platform has an affinity mask
+        cores = os.cpu_count() or 1
+    return max(1, min(cores, MAX_THREADS))
 
 
 class TreeEnsemble:
