@@ -46,11 +46,11 @@ def one_design(designs):
             if len(v) != 1:
                 return None
             v = v[0]
-        if type(v) not in (str, float, int):
+        if isinstance(v, (bool, np.bool_)) or not isinstance(v, (str, float, int, np.integer)):
             return None
         got[k] = v
     name, core = got.get("material"), got.get("core_type")
-    if type(name) is not str or type(core) is not str:
+    if not isinstance(name, str) or not isinstance(core, str):
         return None
     try:
         material = get_material(name).name
@@ -68,7 +68,7 @@ def one_design(designs):
             x = default
         else:
             try:
-                x = float(v) if type(v) is not str else parse_quantity(col, v)
+                x = parse_quantity(col, v) if isinstance(v, str) else float(v)
             except (RadialpnError, OverflowError):
                 return None
             if not (lo <= x <= hi):
@@ -166,6 +166,14 @@ def _ln(x):
     return math.log(max(x, _TINY))
 
 
+def _div(a, b):
+    """a / b with IEEE 754 results where Python raises (numpy's division under errstate)."""
+    try:
+        return a / b
+    except ZeroDivisionError:
+        return math.nan if a != a or a == 0 else math.copysign(math.inf, a) * math.copysign(1.0, b)
+
+
 def _root(fun, x0, lo=0.0, hi=1.0, xtol=ROOT_XTOL, maxiter=ROOT_MAXITER):
     """``_roots.solve_bracketed`` for one equation (the same steps, element by element)."""
     x = min(max(x0, lo), hi)
@@ -175,7 +183,7 @@ def _root(fun, x0, lo=0.0, hi=1.0, xtol=ROOT_XTOL, maxiter=ROOT_MAXITER):
             lo = x
         else:
             hi = x
-        step = f / df
+        step = _div(f, df)
         xn = x - step
         small = abs(step) <= xtol
         x = xn if lo < xn < hi else (x if small else 0.5 * (lo + hi))

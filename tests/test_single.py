@@ -38,7 +38,9 @@ def _random_rows(n, seed):
     corner = {k: lo[k] for k in lo} | {"material": "GaAs", "core_type": "p"}
     rows += [dict(corner), {**corner, **{k: hi[k] for k in hi}}, {**rows[0], "dit_cm2eV": 0.0},
              {**rows[1], "core_radius_nm": f"{rows[1]['core_radius_nm']}nm", "core_doping_cm3": "1e18cm-3"},
-             {k: [v] for k, v in rows[2].items()}, {**rows[3], "core_type": "p-core", "material": "gaas"}]
+             {k: [v] for k, v in rows[2].items()}, {**rows[3], "core_type": "p-core", "material": "gaas"},
+             {k: (np.float64(v) if isinstance(v, float) else v) for k, v in rows[4].items()},
+             {**rows[5], "temperature_K": np.int64(300), "shell_thickness_nm": 40}]
     # refused rows: out of range, unknown material, wrong core type, interlayer, bad text, wrong type
     rows += [{**rows[0], "core_radius_nm": -3.0}, {**rows[0], "material": "Unobtainium"},
              {**rows[0], "core_type": "x"}, {**rows[0], "interlayer_nm": 1.0}, {**rows[0], "dit_cm2eV": "lots"},
