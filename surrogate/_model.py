@@ -166,12 +166,12 @@ class SurrogateModel:
         ok = status == "ok"
         status[ok & (why != "")] = why[ok & (why != "")]
         in_domain = ok & (why == "")
-        out = {k: np.full(n, np.nan) for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
-                                                 "surface_bending_V", "regime_prob", "vbi_low_V", "vbi_high_V")}
+        out = {k: c for k, c in zip(("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
+                                                 "surface_bending_V", "regime_prob", "vbi_low_V", "vbi_high_V"), _nans(8, n))}
         regime = np.full(n, "", dtype=object)
         confirm = np.zeros(n, dtype=bool)
-        gp_cols = {k: np.full(n, np.nan) for k in ("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V")} if second_opinion else {}
-        prob_cols = {k: np.full(n, np.nan) for k in PROB_COLUMNS} if class_probs else {}
+        gp_cols = dict(zip(("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V"), _nans(3, n))) if second_opinion else {}
+        prob_cols = dict(zip(PROB_COLUMNS, _nans(len(PROB_COLUMNS), n))) if class_probs else {}
         rows = np.flatnonzero(in_domain)
         if rows.size:
             sub = table.take(rows)
@@ -250,6 +250,11 @@ class SurrogateModel:
 
 
 MODELS = ("regime", "vbi", "difficulty") + AUX  #: a bundle's tree models, in their stacked order
+
+
+def _nans(k: int, n: int) -> np.ndarray:
+    """k NaN-filled columns of n rows in one allocation (each row a separate output column)."""
+    return np.full((k, n), np.nan)
 
 
 def _needed(models, second_opinion=False) -> tuple:
