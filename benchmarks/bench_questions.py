@@ -85,7 +85,8 @@ def main():
     ap.add_argument("--spread-runs", type=int, default=100_000)
     ap.add_argument("--search", default="100000,1000000")
     a = ap.parse_args()
-    print(f"load average {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores, {getattr(radialpn, "worker_threads", lambda: "default")()} worker thread(s)")
+    workers = getattr(radialpn, "worker_threads", lambda: "default")()  # older installs lack it
+    print(f"load average {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores, {workers} worker thread(s)")
     sections = a.section.split(",")
     if "ask" in sections:
         ask(a.repeat)
