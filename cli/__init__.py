@@ -13,11 +13,16 @@ import sys
 
 from . import _errors
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "COMMANDS"]
 
 #: command modules, in the order `radialpn --help` lists their commands
 COMMAND_MODULES = ("_commands", "_profile_cmd", "_map_cmd", "_size_cmd", "_spread_cmd", "_calibrate_cmd", "_report_cmd", "_console",
                    "_models_cmd", "_dataset_cmd", "_demo")
+#: command -> the module that registers it: a command line naming one loads only that module
+COMMANDS = {"ask": "_commands", "batch": "_commands", "materials": "_commands", "profile": "_profile_cmd",
+            "map": "_map_cmd", "size": "_size_cmd", "search": "_size_cmd", "spread": "_spread_cmd",
+            "calibrate": "_calibrate_cmd", "report": "_report_cmd", "console": "_console", "models": "_models_cmd",
+            "validate": "_models_cmd", "train": "_models_cmd", "dataset": "_dataset_cmd", "demo": "_demo"}
 
 
 class _Parser(argparse.ArgumentParser):
@@ -27,14 +32,27 @@ class _Parser(argparse.ArgumentParser):
         raise _errors.UsageError(f"{message} (see `{self.prog} --help`)")
 
 
-def build_parser() -> argparse.ArgumentParser:
+def _command_of(argv) -> str | None:
+    """The command an argument list names (the first word that is not a global option)."""
+    words = iter(argv)
+    for w in words:
+        if w == "--materials":
+            next(words, None)
+        elif not w.startswith("-"):
+            return w
+    return None
+
+
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """The parser of every command, or with ``command`` (a key of ``COMMANDS``) of that
+    command's module only (what a command line needs; start-up stays short)."""
     p = _Parser(prog="radialpn", description="Depletion regime and built-in potential of core-shell "
                 "(radial p-n) nanowires. Answers are design estimates, not measurements.")
     p.add_argument("--version", action="store_true", help="print the version and exit")
     p.add_argument("--materials", metavar="FILE", action="append", default=[],
                    help="add materials from a TOML or JSON file (repeatable)")
     sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    for name in COMMAND_MODULES:
+    for name in (COMMANDS[command],) if command in COMMANDS else COMMAND_MODULES:
         importlib.import_module(f"{__name__}.{name}").register(sub)
     return p
 
@@ -56,7 +74,8 @@ def main(argv=None, console=None, out=None, stdin=None) -> int:
 
         signal.signal(signal.SIGTERM, _stop)
     try:
-        parser = build_parser()
+        argv = sys.argv[1:] if argv is None else list(argv)
+        parser = build_parser(_command_of(argv))
         args = parser.parse_args(argv)
         if args.version:
             out.write(f"radialpn {radialpn.__version__}\n")

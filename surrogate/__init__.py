@@ -44,6 +44,7 @@ from ._profiles import depletion_profile
 from ._questions import critical_dimensions, profile, regime_map, search, spread, target_text
 from ._review import DEFAULT_SPREADS, review
 from ._search import main_effects
+from ._trees import threads as worker_threads
 from ._tunnel import TUNNEL_RISK_LOG10
 from ._statistics import STATISTICS, fermi_half, fermi_half_inverse, intrinsic_density, reduced_level
 
@@ -126,7 +127,7 @@ __all__ = [
     "get_material", "material_names", "register_material", "load_material_file", "material_from_dict", "Material",
     "fermi_half", "fermi_half_inverse", "intrinsic_density", "reduced_level",
     "CORE_TYPES", "INPUT_COLUMNS", "OUTPUT_COLUMNS", "NUMERIC_COLUMNS", "REGIMES", "STATISTICS", "ENGINES",
-    "DEFAULT_ENGINE", "TUNNEL_RISK_LOG10",
+    "DEFAULT_ENGINE", "TUNNEL_RISK_LOG10", "worker_threads",
     "RadialpnError", "DesignError", "MaterialError", "BundleError",
     "__version__",
 ]

@@ -12,6 +12,7 @@ Nothing in a bundle is executed or unpickled; a corrupted, truncated or foreign 
 from __future__ import annotations
 
 import hashlib
+import io
 import json
 import os
 import zipfile
@@ -100,15 +101,23 @@ def read_bundle(path) -> tuple:
         parts = line.split()
         if len(parts) == 2 and len(parts[0]) == 64:
             sums[parts[1]] = parts[0]
+    data = {}  # each file read once: the bytes checked are the bytes parsed
     for name in FILES:
         if name not in sums:
             raise BundleError(f"bundle {path}: SHA256SUMS has no entry for {name}")
         f = _regular(path, name)
-        if sha256(f, MAX_BYTES[name]) != sums[name]:
+        try:
+            with open(f, "rb") as fh:
+                data[name] = fh.read(MAX_BYTES[name] + 1)
+        except OSError:
+            raise BundleError(f"bundle {path}: {name} unreadable") from None
+        if len(data[name]) > MAX_BYTES[name]:
+            raise BundleError(f"bundle {path}: {name} is larger than {MAX_BYTES[name]:,} bytes")
+        if hashlib.sha256(data[name]).hexdigest() != sums[name]:
             raise BundleError(f"bundle {path}: {name} fails its SHA-256 check (corrupted, truncated or "
                               "altered); reinstall radialpn or rebuild the bundle")
     try:
-        meta = json.loads((path / "bundle.json").read_text(encoding="utf-8"))
+        meta = json.loads(data["bundle.json"].decode("utf-8"))
     except (ValueError, UnicodeDecodeError):
         raise BundleError(f"bundle {path}: bundle.json is not JSON") from None
     if not isinstance(meta, dict) or meta.get("format") != FORMAT:
@@ -117,12 +126,12 @@ def read_bundle(path) -> tuple:
         raise BundleError(f"bundle {path}: format version {meta.get('format_version')} is not "
                           f"{FORMAT_VERSION}; use a matching radialpn")
     try:
-        with zipfile.ZipFile(path / "arrays.npz") as zf:  # sizes first: no inflating a bomb
+        with zipfile.ZipFile(io.BytesIO(data["arrays.npz"])) as zf:  # sizes first: no inflating a bomb
             infos = zf.infolist()
         if len(infos) > MAX_ARRAYS or sum(i.file_size for i in infos) > MAX_INFLATED_BYTES:
             raise BundleError(f"bundle {path}: arrays.npz inflates to more than {MAX_INFLATED_BYTES:,} bytes "
                               f"or holds more than {MAX_ARRAYS} arrays")
-        with np.load(path / "arrays.npz", allow_pickle=False) as z:
+        with np.load(io.BytesIO(data["arrays.npz"]), allow_pickle=False) as z:
             arrays = {k: z[k] for k in z.files}
     except BundleError:
         raise

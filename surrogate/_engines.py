@@ -14,6 +14,7 @@ from ._depletion import deplete
 from ._design import DesignTable, normalize_designs
 from ._errors import DesignError
 from ._model import empty_result, predict_bundles
+from ._single import one_design
 from ._statistics import check_statistics
 
 ENGINES = ("auto", "surrogate", "depletion", "solver")
@@ -38,9 +39,9 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_
     return _solve(designs, statistics, nodes=NODES if nodes is None else int(nodes), n_jobs=n_jobs)
 
 
-def _surrogate(table, statistics, second_opinion=False):
+def _surrogate(table, statistics, second_opinion=False, models=None):
     if statistics == "fermi-dirac":
-        return predict_bundles(table, second_opinion=second_opinion)
+        return predict_bundles(table, second_opinion=second_opinion, models=models)
     res = empty_result(table.n, second_opinion, table.status)
     msg = (f"surrogate: bundles are trained with fermi-dirac statistics, not {statistics}; the solver engine "
            "(or auto) answers it")
@@ -77,10 +78,10 @@ def _merge(n, parts) -> dict:
     return out
 
 
-def _auto(table, statistics, second_opinion, confirm, n_jobs):
+def _auto(table, statistics, second_opinion, confirm, n_jobs, models=None):
     """Surrogate where it may answer; the solver for valid rows it refuses (and, with
     ``confirm``, for rows it flags as uncertain). ``engine_note`` says why the solver answered."""
-    res = _surrogate(table, statistics, second_opinion)
+    res = _surrogate(table, statistics, second_opinion, None if confirm else models)
     note = np.full(table.n, "", dtype=object)
     valid = table.status == "ok"
     refused = valid & (res["status"] != "ok")
@@ -102,22 +103,23 @@ def _auto(table, statistics, second_opinion, confirm, n_jobs):
 
 
 def answer(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", second_opinion: bool = False,
-           progress=None, n_jobs: int | None = None, confirm: bool = False) -> dict:
+           progress=None, n_jobs: int | None = None, confirm: bool = False, models=None) -> dict:
     """Output columns of ``engine`` for ``designs`` (any form ``normalize_designs`` takes).
 
     ``progress(done, total)``, if given, is called after each chunk on runs expected to take
     more than about a second. ``second_opinion`` adds the surrogate's Gaussian-process columns.
     ``n_jobs``: solver threads (default: one per core above 2,000 rows). ``confirm`` (auto
-    engine): rows the surrogate flags as uncertain are re-answered by the solver."""
+    engine): rows the surrogate flags as uncertain are re-answered by the solver. ``models``: the
+    surrogate's tree models a question needs (``SurrogateModel.predict``); other engines ignore it."""
     check_engine(engine)
     statistics = check_statistics(statistics)
-    table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
+    table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
 
     def run(part):
         if engine == "auto":
-            return _auto(part, statistics, second_opinion, confirm, n_jobs)
+            return _auto(part, statistics, second_opinion, confirm, n_jobs, models)
         if engine == "surrogate":
-            res = _surrogate(part, statistics, second_opinion)
+            res = _surrogate(part, statistics, second_opinion, models)
             refused = (part.status == "ok") & (res["status"] != "ok")
             res["status"][refused] = [f"{s}; engine 'auto' or 'solver' answers it" for s in res["status"][refused]]
             return res

@@ -14,6 +14,7 @@ from ._bundle import MAX_BYTES, BundleError, find_bundles, read_bundle
 from ._design import REGIMES, DesignTable, normalize_designs
 from ._features import FEATURE_NAMES, FEATURES_VERSION, features
 from ._gp import GaussianProcess
+from ._single import features_one, one_design
 from ._trees import TreeEnsemble
 
 CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for the solver
@@ -44,6 +45,7 @@ class SurrogateModel:
             parts = [("regime", part("regime")), ("vbi", part("vbi")), ("difficulty", part("difficulty"))]
             parts += [(t, part(f"aux_{t}")) for t in AUX]
             ensembles = [TreeEnsemble(a) for _, a in parts]
+            self.parts_ = dict(zip((name for name, _ in parts), ensembles))
             if ensembles[0].n_outputs != len(REGIMES) or any(e.n_outputs != 1 for e in ensembles[1:]):
                 raise ValueError("tree models have the wrong number of outputs")
             self.forest_ = TreeEnsemble.stack(ensembles)  # one walk answers every tree model
@@ -59,6 +61,7 @@ class SurrogateModel:
                 raise ValueError(f"feature arrays do not have {d} columns")
             if self.forest_.feature.max(initial=0) >= d or self.forest_.feature.min(initial=0) < 0:
                 raise ValueError("a tree splits on a feature that does not exist")
+            self.forest_._renumbered()  # the fast walk's numbering: each node but a root has one parent
         except (KeyError, ValueError, IndexError) as exc:
             raise BundleError(f"bundle {self.name}: arrays incomplete or inconsistent ({exc})") from None
         raw = self.forest_.raw_numpy(self.ref_X_)
@@ -67,6 +70,16 @@ class SurrogateModel:
                                                                             atol=1e-9):
                 raise BundleError(f"bundle {self.name}: trees do not reproduce their reference rows")
         self._check_domain_against_data()
+        self._forests = {MODELS: (self.forest_, self.slices_)}
+
+    def _forest(self, models: tuple):
+        """(ensemble, output slices) of just the tree models ``models`` (stacked once, cached)."""
+        if models not in self._forests:
+            parts = [(m, self.parts_[m]) for m in MODELS if m in models]
+            edges = np.cumsum([0] + [e.n_outputs for _, e in parts])
+            self._forests[models] = (TreeEnsemble.stack([e for _, e in parts]),
+                                     {m: slice(a, b) for (m, _), a, b in zip(parts, edges[:-1], edges[1:])})
+        return self._forests[models]
 
     def _check_domain_against_data(self):
         """The stated domain must lie inside the span of the design variables the models were
@@ -89,6 +102,8 @@ class SurrogateModel:
 
     def domain_check(self, table: DesignTable) -> np.ndarray:
         """Per row: "" inside the trained domain, else the first reason it is outside."""
+        if table.n == 1 and table.status[0] == "ok":
+            return np.array([self._domain_one(table)], dtype=object)
         why = np.full(table.n, "", dtype=object)
         mat_ok = table.material == self.material
         why[~mat_ok] = f"outside the model's domain: material is not {self.material}"
@@ -108,7 +123,26 @@ class SurrogateModel:
             why[bad] = f"outside the model's domain: {col} must be {float(v):g}"
         return why
 
-    def predict(self, designs, second_opinion: bool = False, class_probs: bool = False) -> dict:
+    def _domain_one(self, table: DesignTable) -> str:
+        """``domain_check`` of a one-row table in plain floats (the same tests, in the same order)."""
+        if table.material[0] != self.material:
+            return f"outside the model's domain: material is not {self.material}"
+        if bool(table.p_core[0]) != (self.core_type == "p"):
+            return f"outside the model's domain: core_type is not {self.core_type}"
+        for col, (lo, hi) in self.domain.items():
+            x = float(table.values[col][0])
+            if col == "cnl_eV" and x != x:
+                from ._materials import get_material
+
+                x = get_material(self.material).cnl_eV
+            if not (x >= lo * (1 - 1e-12) and x <= hi * (1 + 1e-12)):
+                return f"outside the model's domain: {col} {x:g} not in [{lo:g}, {hi:g}]"
+        for col, v in self.fixed.items():
+            if float(table.values[col][0]) != float(v):
+                return f"outside the model's domain: {col} must be {float(v):g}"
+        return ""
+
+    def predict(self, designs, second_opinion: bool = False, class_probs: bool = False, models=None) -> dict:
         """Answer designs (mapping of column -> array, list of row dicts, or DataFrame).
 
         Returns a mapping of output columns to numpy arrays, one entry per input row.
@@ -117,26 +151,38 @@ class SurrogateModel:
         batches (about 2e4 rows/s against 1e5 without; benchmarks/bench_surrogate.py).
         ``class_probs``: also return the probability of each regime, ``PROB_COLUMNS`` [1]
         (the temperature-scaled softmax whose maximum is ``regime_prob``).
+        ``models``: evaluate only these of ``MODELS`` (default all; a question that reads only
+        some columns saves the others' trees): ``"vbi"`` gives ``vbi_V``, ``"difficulty"`` the
+        interval, ``"regime"`` the regime and its probability, an extent model
+        its column (and brings ``"regime"``, which clips it). Columns of models left out are NaN
+        (regime ""); the rest are those of the full evaluation, but ``confirm_with_solver``
+        reads only the models evaluated (False without the regime).
         """
-        table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
+        models = _needed(models, second_opinion)
+        table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
         n = table.n
         why = self.domain_check(table)
         status = table.status.copy()
         ok = status == "ok"
         status[ok & (why != "")] = why[ok & (why != "")]
         in_domain = ok & (why == "")
-        out = {k: np.full(n, np.nan) for k in ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
-                                                 "surface_bending_V", "regime_prob", "vbi_low_V", "vbi_high_V")}
+        out = {k: c for k, c in zip(("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
+                                                 "surface_bending_V", "regime_prob", "vbi_low_V", "vbi_high_V"), _nans(8, n))}
         regime = np.full(n, "", dtype=object)
         confirm = np.zeros(n, dtype=bool)
-        gp_cols = {k: np.full(n, np.nan) for k in ("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V")} if second_opinion else {}
-        prob_cols = {k: np.full(n, np.nan) for k in PROB_COLUMNS} if class_probs else {}
+        gp_cols = dict(zip(("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V"), _nans(3, n))) if second_opinion else {}
+        prob_cols = dict(zip(PROB_COLUMNS, _nans(len(PROB_COLUMNS), n))) if class_probs else {}
         rows = np.flatnonzero(in_domain)
         if rows.size:
             sub = table.take(rows)
-            X, da = features(sub, self.statistics)
+            one = features_one(sub, self.statistics) if sub.n == 1 else None  # the scalar fast path
+            X, da = one if one is not None else features(sub, self.statistics)
             good = np.isfinite(X).all(1) & (da["status"] == "ok")
-            raw = self.forest_.raw(X)
+            forest, sl = self._forest(models)
+            raw = np.full((X.shape[0], self.forest_.n_outputs), np.nan)
+            part = forest.raw(X)
+            for name, where in sl.items():
+                raw[:, self.slices_[name]] = part[:, where]
             sl = self.slices_
             z = raw[:, sl["regime"]] / self.temperature_
             z -= z.max(1, keepdims=True)
@@ -160,7 +206,7 @@ class SurrogateModel:
             out["vbi0_V"][rows] = da["vbi0_V"]
             # extents follow the regime: zero where it empties a region; where it keeps one, at
             # least MIN_NEUTRAL_NM (a contradicting extent model is overruled and the row flagged)
-            core_kept, shell_kept = np.isin(code, (0, 2)), np.isin(code, (0, 1))
+            core_kept, shell_kept = (code == 0) | (code == 2), (code == 0) | (code == 1)
             flag = p.max(1) < CONFIRM_PROB
             for t in AUX:
                 val = da[t] + raw[:, sl[t]][:, 0]
@@ -177,6 +223,18 @@ class SurrogateModel:
                 gp_cols["vbi_gp_low_V"][rows] = gv - self.q_gp_ * gs
                 gp_cols["vbi_gp_high_V"][rows] = gv + self.q_gp_ * gs
                 flag |= np.abs(gv - vbi) > np.maximum(half, self.q_gp_ * gs)
+            if "regime" not in models:
+                regime[rows] = ""
+                flag[:] = False
+                for v in [out["regime_prob"]] + list(prob_cols.values()):
+                    v[rows] = np.nan
+            for t in AUX:
+                if t not in models:
+                    out[t][rows] = np.nan
+            if "vbi" not in models:
+                out["vbi_V"][rows] = np.nan
+            if "difficulty" not in models or "vbi" not in models:
+                out["vbi_low_V"][rows] = out["vbi_high_V"][rows] = np.nan
             confirm[rows] = flag
             bad = rows[~good]
             if bad.size:
@@ -189,6 +247,29 @@ class SurrogateModel:
                 "engine": np.full(n, "surrogate", dtype=object), "status": status, "regime_prob": out["regime_prob"],
                 "vbi_low_V": out["vbi_low_V"], "vbi_high_V": out["vbi_high_V"], "in_domain": in_domain,
                 "confirm_with_solver": confirm, **gp_cols, **prob_cols}
+
+
+MODELS = ("regime", "vbi", "difficulty") + AUX  #: a bundle's tree models, in their stacked order
+
+
+def _nans(k: int, n: int) -> np.ndarray:
+    """k NaN-filled columns of n rows in one allocation (each row a separate output column)."""
+    return np.full((k, n), np.nan)
+
+
+def _needed(models, second_opinion=False) -> tuple:
+    """``models`` (None: all) as a tuple in ``MODELS`` order, with what they depend on."""
+    if models is None:
+        return MODELS
+    want = set(models)
+    unknown = want - set(MODELS)
+    if unknown:
+        raise ValueError(f"models: each one of {', '.join(MODELS)} (got {sorted(unknown)[0]!r})")
+    if want & set(AUX):
+        want.add("regime")  # the regime clips the extents
+    if second_opinion:
+        want |= {"vbi", "difficulty"}  # the GP's disagreement flag compares with the interval
+    return tuple(m for m in MODELS if m in want)
 
 
 FEATURE_INDEX = {"core_radius_nm": 0, "shell_thickness_nm": 1, "core_doping_cm3": 2, "shell_doping_cm3": 3,
@@ -284,21 +365,34 @@ def available() -> list:
     return out
 
 
-def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = False) -> dict:
+def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = False, models=None) -> dict:
     """Answer designs of any material/core type with the matching bundles (rows without one
-    get a status). ``class_probs`` adds ``PROB_COLUMNS``."""
+    get a status). ``class_probs`` adds ``PROB_COLUMNS``; ``models`` as for ``predict``."""
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     n = table.n
+    if n == 1 and table.status[0] == "ok":  # one design: its bundle's answer is the whole answer
+        try:
+            model = load(table.material[0], "p" if table.p_core[0] else "n")
+        except BundleError:
+            pass
+        else:
+            return model.predict(table, second_opinion, class_probs, models)
     result = None
-    keys = {(m, bool(pc)) for m, pc in zip(table.material, table.p_core) if m}
-    for mat, pc in sorted(keys):
-        sel = np.flatnonzero((table.material == mat) & (table.p_core == pc) & (table.status == "ok"))
+    from ._design import categories
+
+    if n and (table.material == table.material[0]).all():  # one material (the usual case): no text scan
+        names, inv = [table.material[0]], np.zeros(n, dtype=np.intp)
+    else:
+        names, inv = categories(table.material, n)
+    keys = [(m, pc, (inv == k) & (table.p_core == pc)) for k, m in enumerate(names) if m for pc in (False, True)]
+    for mat, pc, same in sorted((k for k in keys if k[2].any()), key=lambda k: k[:2]):
+        sel = np.flatnonzero(same & (table.status == "ok"))
         try:
             model = load(mat, "p" if pc else "n")
         except BundleError as exc:
             part = {"status": np.full(sel.size, str(exc), dtype=object)}
         else:
-            part = model.predict(table.take(sel), second_opinion, class_probs)
+            part = model.predict(table.take(sel), second_opinion, class_probs, models)
         if result is None:
             result = empty_result(n, second_opinion, table.status, class_probs)
         for k, v in part.items():

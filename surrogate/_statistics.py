@@ -24,35 +24,54 @@ INVERSE_TOL = 1e-12  #: target accuracy of eta for the inverse [1]
 _NEWTON_STOP = 1e-6  #: a Newton step below this leaves an error ~ step^2 < INVERSE_TOL
 
 _SQRT_PI = np.sqrt(np.pi)
-_table = None  # (eta nodes, ln F_1/2, d ln F_1/2 / d eta)
-_inverse_table = None  # (ln y start, step, eta, d eta / d ln y) on a uniform ln y grid
+TABLE_BLOCK = 256  #: table nodes computed together, each block on first use (a query touches a few)
+INVERSE_BLOCK = 32  #: inverse-table nodes computed together (a block of ln y may span many eta nodes)
+_forward = None  # eta nodes, ln F_1/2, d ln F_1/2 / d eta (NaN until their block is computed), done blocks
+_inverse = None  # the same for eta against ln F_1/2 on a uniform ln y grid
 INVERSE_STEP = 0.02  #: spacing in ln F_1/2 of the inverse table [1]
+_quad = None  # quadrature points t and weights of the table's Gauss-Legendre rule
 
 
-def _quadrature_table():
-    """F_1/2 and F_-1/2 at the table nodes by composite Gauss-Legendre in t (x = t^2)."""
-    eta = np.arange(ETA_LO, ETA_HI + TABLE_STEP / 2, TABLE_STEP)
-    t_max = np.sqrt(ETA_HI + 60.0)  # integrand < e^-60 relative beyond
-    edges = np.arange(0.0, t_max + _PANEL, _PANEL)
-    x, w = np.polynomial.legendre.leggauss(_GL_ORDER)
-    half = 0.5 * _PANEL
-    t = (edges[:-1, None] + half * (x[None, :] + 1.0)).ravel()
-    wt = np.tile(w * half, edges.size - 1)
-    f12 = np.empty_like(eta)
-    fm12 = np.empty_like(eta)
-    for i in range(0, eta.size, 256):
-        e = eta[i:i + 256, None]
-        occ = 1.0 / (1.0 + np.exp(np.minimum(t[None, :] ** 2 - e, 700.0)))
-        f12[i:i + 256] = (4.0 / _SQRT_PI) * (occ * t ** 2) @ wt
-        fm12[i:i + 256] = (2.0 / _SQRT_PI) * occ @ wt
-    return eta, np.log(f12), fm12 / f12
+def _forward_table() -> dict:
+    global _forward
+    if _forward is None:
+        eta = np.arange(ETA_LO, ETA_HI + TABLE_STEP / 2, TABLE_STEP)
+        _forward = dict(eta=eta, lnf=np.full(eta.size, np.nan), dlnf=np.full(eta.size, np.nan),
+                        done=np.zeros(-(-eta.size // TABLE_BLOCK), dtype=bool))
+    return _forward
+
+
+def _quadrature_block(e):
+    """F_1/2 and F_-1/2 at nodes ``e`` by composite Gauss-Legendre in t (x = t^2)."""
+    global _quad
+    if _quad is None:
+        t_max = np.sqrt(ETA_HI + 60.0)  # integrand < e^-60 relative beyond
+        edges = np.arange(0.0, t_max + _PANEL, _PANEL)
+        x, w = np.polynomial.legendre.leggauss(_GL_ORDER)
+        half = 0.5 * _PANEL
+        _quad = ((edges[:-1, None] + half * (x[None, :] + 1.0)).ravel(), np.tile(w * half, edges.size - 1))
+    t, wt = _quad
+    occ = 1.0 / (1.0 + np.exp(np.minimum(t[None, :] ** 2 - e[:, None], 700.0)))
+    return (4.0 / _SQRT_PI) * (occ * t ** 2) @ wt, (2.0 / _SQRT_PI) * occ @ wt
+
+
+def _ensure_forward(lo: int, hi: int) -> dict:
+    """The forward table with nodes lo..hi (indices, inclusive) computed."""
+    tab = _forward_table()
+    last = tab["done"].size - 1
+    for b in range(min(max(lo, 0) // TABLE_BLOCK, last), min(max(hi, 0) // TABLE_BLOCK, last) + 1):
+        if not tab["done"][b]:
+            sl = slice(b * TABLE_BLOCK, (b + 1) * TABLE_BLOCK)
+            f12, fm12 = _quadrature_block(tab["eta"][sl])
+            tab["lnf"][sl], tab["dlnf"][sl] = np.log(f12), fm12 / f12
+            tab["done"][b] = True
+    return tab
 
 
 def _get_table():
-    global _table
-    if _table is None:
-        _table = _quadrature_table()
-    return _table
+    """(eta nodes, ln F_1/2, d ln F_1/2 / d eta) of the whole table."""
+    tab = _ensure_forward(0, _forward_table()["eta"].size - 1)
+    return tab["eta"], tab["lnf"], tab["dlnf"]
 
 
 def _sommerfeld(eta):
@@ -71,9 +90,8 @@ def fermi_half_and_derivative(eta):
     it are consistent.
     """
     eta = np.asarray(eta, dtype=float)
-    nodes, lnf, dlnf = _get_table()
     if eta.size and ETA_LO <= eta.min() and eta.max() <= ETA_HI:  # common case: all in the table
-        return _table_eval(eta, lnf, dlnf)
+        return _table_eval(eta)
     f = np.empty_like(eta)
     df = np.empty_like(eta)
     lo = eta < ETA_LO
@@ -86,14 +104,18 @@ def fermi_half_and_derivative(eta):
     if hi.any():
         f[hi], df[hi] = _sommerfeld(eta[hi])
     if mid.any():
-        f[mid], df[mid] = _table_eval(eta[mid], lnf, dlnf)
+        f[mid], df[mid] = _table_eval(eta[mid])
     return f, df
 
 
-def _table_eval(em, lnf, dlnf):
+def _table_eval(em):
     """F_1/2 and its derivative from the Hermite table of ln F_1/2 (eta inside the table)."""
+    tab = _forward_table()
     s = (em - ETA_LO) / TABLE_STEP
-    i = np.minimum(s.astype(np.intp), lnf.size - 2)
+    i = np.minimum(s.astype(np.intp), tab["lnf"].size - 2)
+    if i.size and not tab["done"].all():
+        _ensure_forward(int(i.min()), int(i.max()) + 1)
+    lnf, dlnf = tab["lnf"], tab["dlnf"]
     u = s - i
     h = TABLE_STEP
     y0, y1 = lnf[i], lnf[i + 1]
@@ -124,19 +146,55 @@ def _hermite(x0, step, y, dy, x):
             + (-2 * u3 + 3 * u2) * y[i + 1] + (u3 - u2) * step * dy[i + 1])
 
 
-def _get_inverse_table():
-    """eta against ln F_1/2 on a uniform grid, from the forward table by Newton (built once)."""
-    global _inverse_table
-    if _inverse_table is None:
-        nodes, lnf, _ = _get_table()
-        g = np.arange(lnf[0], lnf[-1], INVERSE_STEP)
-        eta = np.interp(g, lnf, nodes)
+def _inverse_table() -> dict:
+    """The inverse table's grid (uniform in ln F_1/2 from the forward table's first to its last
+    node); its values are computed block by block (``_ensure_inverse``)."""
+    global _inverse
+    if _inverse is None:
+        tab = _forward_table()
+        k = tab["eta"].size - 1
+        _ensure_forward(0, 0)
+        _ensure_forward(k, k)
+        g = np.arange(tab["lnf"][0], tab["lnf"][k], INVERSE_STEP)
+        _inverse = dict(g=g, g0=g[0], step=INVERSE_STEP, eta=np.full(g.size, np.nan), deta=np.full(g.size, np.nan),
+                        done=np.zeros(-(-g.size // INVERSE_BLOCK), dtype=bool))
+    return _inverse
+
+
+def _ensure_inverse(lo: int, hi: int) -> dict:
+    """The inverse table with nodes lo..hi computed: eta of each ln y node by Newton on the
+    forward table from its linear interpolation (the forward nodes around it computed first:
+    ln F_1/2(eta) < eta, so the bracketing nodes lie at or above eta = ln y)."""
+    inv = _inverse_table()
+    tab = _forward_table()
+    last = inv["done"].size - 1
+    top = tab["eta"].size - 1
+    for b in range(min(max(lo, 0) // INVERSE_BLOCK, last), min(max(hi, 0) // INVERSE_BLOCK, last) + 1):
+        if inv["done"][b]:
+            continue
+        sl = slice(b * INVERSE_BLOCK, (b + 1) * INVERSE_BLOCK)
+        g = inv["g"][sl]
+        k0 = min(max(int((g[0] - ETA_LO) / TABLE_STEP) - 1, 0), top)  # eta[k0] < g[0], so lnf[k0] < g[0]
+        k1 = k0
+        while True:  # the first node at or above the block's last ln y
+            k1 = min(k1 + INVERSE_BLOCK, top)
+            _ensure_forward(k0, k1)
+            if tab["lnf"][k1] >= g[-1] or k1 == top:
+                break
+        eta = np.interp(g, tab["lnf"][k0:k1 + 1], tab["eta"][k0:k1 + 1])
         for _ in range(6):
             f, df = fermi_half_and_derivative(eta)
             eta = eta - (np.log(f) - g) * f / df
         f, df = fermi_half_and_derivative(eta)
-        _inverse_table = (g[0], INVERSE_STEP, eta, f / df)
-    return _inverse_table
+        inv["eta"][sl], inv["deta"][sl] = eta, f / df
+        inv["done"][b] = True
+    return inv
+
+
+def _get_inverse_table():
+    """(ln y start, step, eta, d eta / d ln y) of the whole inverse table."""
+    inv = _ensure_inverse(0, _inverse_table()["g"].size - 1)
+    return inv["g0"], inv["step"], inv["eta"], inv["deta"]
 
 
 def fermi_half_inverse(y):
@@ -150,13 +208,17 @@ def fermi_half_inverse(y):
     y = np.asarray(y, dtype=float)
     if np.any(~(y > 0)):
         raise ValueError("fermi_half_inverse: argument must be > 0")
-    g0, step, eta_t, deta_t = _get_inverse_table()
+    inv = _inverse_table()
+    g0, step, eta_t, deta_t = inv["g0"], inv["step"], inv["eta"], inv["deta"]
     lny = np.log(y)
     g1 = g0 + step * (eta_t.size - 1)
     eta = np.where(lny < g0, lny + y / 2.0 ** 1.5,
                    np.where(lny > g1, (0.75 * _SQRT_PI * y) ** (2.0 / 3.0), 0.0))
     mid = (lny >= g0) & (lny <= g1)
     if mid.any():
+        if not inv["done"].all():
+            k = np.clip(((lny[mid] - g0) / step).astype(np.intp), 0, eta_t.size - 2)
+            _ensure_inverse(int(k.min()), int(k.max()) + 1)
         eta[mid] = _hermite(g0, step, eta_t, deta_t, lny[mid])
     eta = np.atleast_1d(eta)
     lny = np.atleast_1d(lny)

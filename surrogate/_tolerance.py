@@ -15,6 +15,8 @@ from ._errors import DesignError
 from ._qcommon import _check_count, _column, _target, answered_by, design_row, target_text
 from ._tunnel import TUNNEL_RISK_LOG10
 
+SPREAD_MODELS = ("regime", "vbi")  #: surrogate trees a spread reads (V_bi and its regime shares)
+
 
 def parse_spread(column: str, text) -> tuple:
     """A spread given as text: ``"2nm"`` (one standard deviation in the column's unit),
@@ -81,7 +83,7 @@ def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, f
         raise DesignError(missing[0], "a spread needs the nominal value in the design")
     t0 = time.perf_counter()
     samples_ = _search.spread_samples(nominal, parsed, n, seed)
-    res = answer(samples_, engine, statistics, progress=progress)
+    res = answer(samples_, engine, statistics, progress=progress, models=SPREAD_MODELS)
     seconds = time.perf_counter() - t0
     ok = res["status"] == "ok"
     success = _search.meets(res, **target)

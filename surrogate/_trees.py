@@ -8,10 +8,15 @@ per tree: ``roots`` (int32) and ``tree_class`` (int32); per output: ``baseline``
 The raw score of output k is baseline[k] + the sum of the leaf values of the trees of class k
 (the additive model of Friedman, Ann. Statist. 29, 1189 (2001), doi:10.1214/aos/1013203451).
 
-Evaluation, numpy only (a bundle answers wherever numpy runs): small batches by a
-level-synchronous walk of all trees at once; batches of ``BITVECTOR_MIN_ROWS`` rows or more by
-exit-leaf bitvectors (``_bitvector``), chunk by chunk over ``threads()`` worker threads (numpy
-releases the interpreter lock in the array work). Both give the same leaves, hence the same sums.
+Evaluation, numpy only (a bundle answers wherever numpy runs): a level-synchronous walk of all
+trees at once over bin codes. The nodes are renumbered so that a node's right child follows its
+left one (the next node is ``left + (x > threshold)``, one gather per level instead of a 2-D
+child lookup), and each feature's values are replaced by their rank among that feature's split
+thresholds (``searchsorted``; x > t exactly when rank(x) > rank(t)), so the walk gathers from a
+small uint8/uint16 table that stays in cache. Rows with missing values take the plain walk
+(``raw_numpy``), which routes NaN by each node's learned direction. Both give the same leaves,
+hence the same sums. Row chunks of ``WALK_CHUNK`` run over ``threads()`` worker threads (numpy
+releases the interpreter lock in the gathers); nothing inside a chunk runs in parallel.
 """
 
 from __future__ import annotations
@@ -21,23 +26,29 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-NUMPY_CHUNK = 1 << 17  #: rows x trees per numpy step of the walk
-BITVECTOR_MIN_ROWS = 256  #: batches at least this large use the bitvector tables (built on first use)
-BITVECTOR_CHUNK = 1024  #: rows per bitvector step: keeps the (rows, trees) words in cache
+NUMPY_CHUNK = 1 << 17  #: rows x trees per numpy step of the plain walk
+WALK_CHUNK = 256  #: rows per step (and per thread work unit) of the binned walk: (rows, trees) node arrays stay in L2
+THREAD_MIN_ROWS = 8 * WALK_CHUNK  #: smaller batches run in the calling thread
 MAX_THREADS = 8
 
 
 def threads(explicit: int | None = None) -> int:
-    """Worker threads for large batches: ``explicit``, else $RADIALPN_THREADS, else
-    $OMP_NUM_THREADS, else the number of cores (at most ``MAX_THREADS``). One thread per chunk
-    of rows; nothing inside a chunk runs in parallel, so threads never oversubscribe cores."""
+    """Worker threads for large surrogate batches: ``explicit``, else $RADIALPN_THREADS, else
+    $OMP_NUM_THREADS, else the number of cores this process may run on (its CPU affinity), at
+    most ``MAX_THREADS``. One thread per chunk of ``WALK_CHUNK`` rows, taken from a shared queue;
+    nothing inside a chunk runs in parallel, so the threads never exceed that count and a
+    thread slowed by another process holds up no other (no barrier between chunks)."""
     for value in (explicit, os.environ.get("RADIALPN_THREADS"), os.environ.get("OMP_NUM_THREADS")):
         try:
             if value is not None and int(value) >= 1:
                 return min(int(value), MAX_THREADS)
         except (TypeError, ValueError):
             continue
-    return max(1, min(os.cpu_count() or 1, MAX_THREADS))
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # not every platform has an affinity mask
+        cores = os.cpu_count() or 1
+    return max(1, min(cores, MAX_THREADS))
 
 
 class TreeEnsemble:
@@ -64,7 +75,7 @@ class TreeEnsemble:
         self.child = np.ascontiguousarray(np.column_stack([self.left, self.right]))  # [node, go right]
         self.onehot = np.zeros((self.roots.size, self.baseline.size))
         self.onehot[np.arange(self.roots.size), self.tree_class] = 1.0
-        self._tables = None  # exit-leaf bitvector tables, built on the first large batch
+        self._renum = self._binned = None  # renumbered nodes, then threshold ranks: built on first use
 
     @classmethod
     def stack(cls, ensembles) -> "TreeEnsemble":
@@ -114,24 +125,105 @@ class TreeEnsemble:
             out[s:s + step] = self.value[node] @ self.onehot + self.baseline
         return out
 
+    def _renumbered(self) -> dict:
+        """Node ids with right = left + 1 (built once): per node its feature, float threshold
+        (+inf at leaves) and next-node base; roots and leaf values in the new numbering."""
+        if self._renum is not None:
+            return self._renum
+        n, T = self.feature.size, self.roots.size
+        leaf = self.left == np.arange(n)
+        inner = np.flatnonzero(~leaf)
+        new = np.empty(n, dtype=np.intp)
+        new[self.roots] = np.arange(T)
+        pair = T + 2 * np.arange(inner.size)
+        new[self.left[inner]] = pair
+        new[self.right[inner]] = pair + 1
+        if inner.size * 2 + T != n or np.bincount(new, minlength=n).max(initial=0) != 1:
+            raise ValueError("tree arrays: every node but the roots must be the child of exactly one node")
+        old = np.empty(n, dtype=np.intp)
+        old[new] = np.arange(n)
+        feat = self.feature[old].astype(np.intp)
+        is_leaf = leaf[old]
+        nxt = np.where(is_leaf, np.arange(n), new[self.left[old]])  # a leaf points to itself
+        thr = self.threshold[old]
+        self._renum = dict(feat=np.where(is_leaf, 0, feat), next=nxt, roots=np.arange(T), value=self.value[old],
+                           threshold=np.where(is_leaf, np.inf, thr), split_feature=feat, is_leaf=is_leaf, split=thr)
+        return self._renum
+
+    def _bins(self, n_features: int) -> dict:
+        """The renumbered walk plus per-node threshold ranks and per-feature sorted thresholds
+        (built once per feature count)."""
+        if self._binned is not None and self._binned["d"] == n_features:
+            return self._binned
+        r = self._renumbered()
+        feat, is_leaf, thr = r["split_feature"], r["is_leaf"], r["split"]
+        cuts, width = [], 0
+        for f in range(n_features):
+            c = np.sort(thr[(feat == f) & ~is_leaf])
+            cuts.append(c[np.concatenate(([True], c[1:] != c[:-1]))] if c.size else c)  # np.unique, without its import cost
+            width = max(width, cuts[-1].size)
+        dtype = np.uint8 if width < 255 else np.uint16
+        never = np.iinfo(dtype).max  # above every rank: a leaf never steps right
+        rank = np.full(feat.size, never, dtype=dtype)
+        for f in range(n_features):
+            sel = (feat == f) & ~is_leaf
+            rank[sel] = np.searchsorted(cuts[f], thr[sel])
+        self._binned = dict(r, d=n_features, rank=rank, cuts=cuts, dtype=dtype)
+        return self._binned
+
+    def codes(self, X: np.ndarray) -> np.ndarray:
+        """Rank of every value of X (n, n_features) among its feature's split thresholds."""
+        b = self._bins(X.shape[1])
+        C = np.empty(X.shape, dtype=b["dtype"])
+        for f, cut in enumerate(b["cuts"]):
+            C[:, f] = np.searchsorted(cut, X[:, f], side="left")
+        return C
+
+    def _walk_codes(self, C: np.ndarray) -> np.ndarray:
+        """Raw scores (n, n_outputs) of rows given as threshold ranks (no missing values)."""
+        b = self._bins(C.shape[1])
+        feat, rank, nxt, value = b["feat"], b["rank"], b["next"], b["value"]
+        m, d = C.shape
+        flat = np.ascontiguousarray(C).ravel()
+        base = (np.arange(m) * d)[:, None]
+        node = np.broadcast_to(b["roots"], (m, b["roots"].size)).copy()
+        for _ in range(self.depth):
+            node = nxt[node] + (flat[base + feat[node]] > rank[node])
+        return value[node] @ self.onehot + self.baseline
+
+    def _walk_one(self, x: np.ndarray) -> np.ndarray:
+        """Raw scores (1, n_outputs) of one row without missing values: the walk on the float
+        thresholds (a rank table costs more than it saves for one row)."""
+        b = self._renumbered()
+        feat, thr, nxt = b["feat"], b["threshold"], b["next"]
+        node = b["roots"]
+        for _ in range(self.depth):
+            node = nxt[node] + (x[feat[node]] > thr[node])
+        return (b["value"][node] @ self.onehot + self.baseline)[None, :]
+
     def raw(self, X: np.ndarray, n_threads: int | None = None) -> np.ndarray:
-        """Raw scores (n, n_outputs): the walk for small batches and rows with missing values,
-        the bitvector tables (same leaves) for large ones, over ``threads(n_threads)``."""
+        """Raw scores (n, n_outputs): the binned walk, the plain walk for rows with missing
+        values; chunks of rows over ``threads(n_threads)`` threads for large batches."""
         X = np.ascontiguousarray(X, dtype=np.float64)
         n = X.shape[0]
-        if n < BITVECTOR_MIN_ROWS or np.isnan(X).any():
-            return self.raw_numpy(X)
-        if self._tables is None:
-            from ._bitvector import ExitLeafTables
-
-            self._tables = ExitLeafTables(self, X.shape[1])
+        if n == 1 and not np.isnan(X).any():
+            return self._walk_one(X[0])
+        missing = np.isnan(X).any(1)
+        if missing.any():
+            out = np.empty((n, self.n_outputs))
+            out[missing] = self.raw_numpy(X[missing])
+            if (~missing).any():
+                out[~missing] = self.raw(X[~missing], n_threads)
+            return out
+        if n <= WALK_CHUNK:
+            return self._walk_codes(self.codes(X))
         out = np.empty((n, self.n_outputs))
 
         def work(s):
-            out[s:s + BITVECTOR_CHUNK] = self._tables.leaf_values(X[s:s + BITVECTOR_CHUNK]) @ self.onehot + self.baseline
+            out[s:s + WALK_CHUNK] = self._walk_codes(self.codes(X[s:s + WALK_CHUNK]))
 
-        starts = range(0, n, BITVECTOR_CHUNK)
-        k = min(threads(n_threads), len(starts))
+        starts = range(0, n, WALK_CHUNK)
+        k = min(threads(n_threads), len(starts)) if n >= THREAD_MIN_ROWS else 1
         if k > 1:
             with ThreadPoolExecutor(k) as pool:
                 list(pool.map(work, starts))

@@ -219,3 +219,19 @@ def test_validate_never_changes_the_shipped_bundle(tmp_path):
     assert code == 0 and "regime accuracy" in text and "confusion" in text
     assert json.loads(report.read_text())["rows"] == 300
     assert {f: (path / f).read_bytes() for f in before} == before
+
+
+def test_each_command_loads_its_own_module_only():
+    # a command line builds the parser of its command's module alone (start-up time); the map
+    # must name every command the full parser has, and each partial parser must know its command
+    import argparse
+
+    from radialpn.cli import COMMANDS, build_parser
+
+    def commands(parser):
+        sub = next(a for a in parser._actions if isinstance(a, argparse._SubParsersAction))
+        return set(sub.choices)
+
+    assert commands(build_parser()) == set(COMMANDS)
+    for name in COMMANDS:
+        assert name in commands(build_parser(name))

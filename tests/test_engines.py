@@ -70,10 +70,11 @@ def test_confirm_reanswers_flagged_rows_with_the_solver():
     assert all("re-answered" in s for s in conf["engine_note"][flagged])
 
 
-def test_bitvector_evaluator_gives_the_walks_leaves():
+def test_binned_walk_gives_the_plain_walks_leaves():
     # Same leaves, so the same sums: 1e-12 absolute (float64 sums of <= 200 leaf values of
     # order 1, in the same order). Rows placed exactly on split thresholds check the tie rule
-    # (x == threshold goes left, as scikit-learn's x <= threshold does).
+    # (x == threshold goes left, as scikit-learn's x <= threshold does); infinities and rows
+    # with a missing value (the plain walk's rows) mixed in check the split between the two.
     from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
 
     rng = np.random.default_rng(3)
@@ -87,6 +88,8 @@ def test_bitvector_evaluator_gives_the_walks_leaves():
         Z = rng.normal(size=(3000, 6))
         pick = rng.choice(np.flatnonzero(inner), 3000)
         Z[np.arange(3000), ens.feature[pick]] = ens.threshold[pick]  # exactly on a threshold
-        for A in (X[:3000], Z):
+        W = Z.copy()
+        W[:100, 0], W[100:200, 1], W[200:300, 2] = np.inf, -np.inf, np.nan
+        for A in (X[:3000], Z, W, Z[:1], Z[:300]):
             np.testing.assert_allclose(ens.raw(A), ens.raw_numpy(A), rtol=0, atol=1e-12)
         np.testing.assert_allclose(ens.raw(X, n_threads=2), ens.raw_numpy(X), rtol=0, atol=1e-12)
