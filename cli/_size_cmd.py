@@ -77,7 +77,7 @@ def cmd_size(args, console, out) -> int:
     goal = radialpn.target_text(**target)
     if args.sweep:
         return _sweep(args, console, out, design, target, goal)
-    res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics,
+    res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics, ionisation=args.ionisation,
                                        confirm=not args.no_confirm)
     rows = size_rows(res)
     if args.csv:
@@ -133,7 +133,7 @@ def _sweep(args, console, out, design, target, goal):
     col, lo, hi = axis_spec(args.sweep, "--sweep")
     bar, update = progress_bar(console, "sweeping")
     with bar:
-        res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics,
+        res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics, ionisation=args.ionisation,
                                            sweep=(col, lo, hi), points=args.points, progress=update)
     base = res["design"]
     xs, core, shell = res["sweep_values"], res["core_radius_nm"], res["shell_thickness_nm"]
@@ -206,7 +206,7 @@ def cmd_search(args, console, out) -> int:
     bar, update = progress_bar(console, "searching")
     with bar:
         res = radialpn.search(fixed, vary, args.minimize, **target, regimes=args.regime, candidates=args.candidates,
-                              top=args.top, seed=args.seed, engine=args.engine, statistics=args.statistics,
+                              top=args.top, seed=args.seed, engine=args.engine, statistics=args.statistics, ionisation=args.ionisation,
                               progress=update)
     w, n, elapsed = res["winners"], res["candidates"], res["seconds"]
     header = [c for c in list(vary) + list(SEARCH_EXTRA) if c in w]

@@ -36,9 +36,11 @@ from ._constants import CM2_TO_M2, CM3_TO_M3, EPS0, K_B_EV, NM, Q
 from ._design import REGIMES, DesignTable, categories, normalize_designs
 from ._materials import get_material
 from ._roots import solve_bracketed
-from ._statistics import check_statistics, reduced_level
+from ._ionisation import check_ionisation, ionisation_column, localised_share, row_dopants
+from ._statistics import check_statistics, occupancy, reduced_level
 
 _TINY = 1e-300
+LEVEL_XTOL = 1e-12  #: tolerance of the reduced bulk level under incomplete ionisation [1]
 
 
 def _h(x):
@@ -75,11 +77,59 @@ def material_arrays(material, temperature_K, statistics="fermi-dirac", core_dopi
     return out
 
 
-def bulk_levels(doping_cm3, dos_cm3, kt_eV, statistics):
-    """Distance [eV] from the Fermi level to the majority band edge in neutral material of
-    full ionisation: E_c - E_F (n-type, with N_c) or E_F - E_v (p-type, with N_v).
-    Negative when degenerate. Sze & Ng, 3rd ed., eq. 1.23 (Boltzmann) and 1.16 (F_1/2)."""
-    return -kt_eV * reduced_level(doping_cm3, dos_cm3, statistics)
+def bulk_levels(doping_cm3, dos_cm3, kt_eV, statistics, level_eV=None, degeneracy=None, share=None):
+    """Distance [eV] from the Fermi level to the majority band edge in neutral material:
+    E_c - E_F (n-type, with N_c) or E_F - E_v (p-type, with N_v). Negative when degenerate.
+    Full ionisation: majority density = doping (Sze & Ng, 3rd ed., eq. 1.23 (Boltzmann) and 1.16
+    (F_1/2)). With ``level_eV`` (the dopant's ionisation energy E_i [eV]), ``degeneracy`` g [1]
+    and ``share`` s [1] (``_ionisation``): majority density = ionised dopants,
+    N_dos F(eta) = N (1 - s / (1 + exp(w))), w = eta + E_i/kT + ln g, eta the reduced level
+    (Sze & Ng, 3rd ed., eq. 1.38-1.39 with the neutrality of sec. 1.4.2, minority carriers
+    neglected as in the full case); solved for rows with s > 0 by ``solve_bracketed``."""
+    eta = reduced_level(doping_cm3, dos_cm3, statistics)
+    if share is None or not np.any(share > 0):
+        return -kt_eV * eta
+    i = np.flatnonzero(share > 0)
+    kt = np.broadcast_to(kt_eV, eta.shape)[i]
+    p = dict(L=np.log(np.asarray(doping_cm3, dtype=float)[i] / np.asarray(dos_cm3, dtype=float)[i]),
+             c=level_eV[i] / kt + np.log(degeneracy[i]), s=share[i])
+
+    def f(x, q):  # ln F(eta) - ln(ionised fraction) - ln(N/N_dos), increasing in eta
+        occ, docc = occupancy(x, statistics)
+        sig = 1.0 / (1.0 + np.exp(-np.minimum(x + q["c"], 700.0)))  # 1 / (1 + exp(-w))
+        frac = 1.0 - q["s"] * sig
+        return np.log(occ) - np.log(frac) - q["L"], docc / occ + q["s"] * sig * (1.0 - sig) / frac
+
+    # bracket: the full-ionisation level above; below, F(eta) <= e^eta and -ln(fraction) <= max(w, 0) + ln 2
+    hi = eta[i]
+    lo = np.minimum(np.minimum(0.0, 0.5 * (p["L"] - p["c"] - np.log(2.0))), p["L"] - np.log(2.0)) - 1.0
+    with np.errstate(all="ignore"):
+        root, _ = solve_bracketed(f, p, lo, hi, x0=hi, xtol=LEVEL_XTOL)
+    eta = eta.copy()
+    eta[i] = root
+    return -kt_eV * eta
+
+
+def bulk_level(doping_cm3, dos_cm3, temperature_K, statistics: str = "fermi-dirac", ionisation_eV=None,
+               degeneracy=2.0, mott_cm3=np.inf):
+    """Majority band edge to Fermi level [eV] in neutral material (E_c - E_F for a donor-doped
+    region with ``dos_cm3`` = N_c, E_F - E_v for an acceptor-doped one with N_v; negative when
+    degenerate) at doping ``doping_cm3`` [cm^-3] and ``temperature_K`` [K]. ``ionisation_eV``
+    (the dopant's dilute-limit ionisation energy [eV]; None: full ionisation), ``degeneracy``
+    g [1] and ``mott_cm3`` (Mott density [cm^-3]) give the incomplete ionisation of
+    ``_ionisation`` (Sze & Ng, 3rd ed., eq. 1.38-1.39). Minority carriers are neglected."""
+    n = np.asarray(doping_cm3, dtype=float)
+    shape = np.broadcast_shapes(n.shape, np.shape(dos_cm3), np.shape(temperature_K))
+    n = np.broadcast_to(n, shape).ravel()
+    dos = np.broadcast_to(np.asarray(dos_cm3, dtype=float), shape).ravel()
+    kt = np.broadcast_to(K_B_EV * np.asarray(temperature_K, dtype=float), shape).ravel()
+    statistics = check_statistics(statistics)
+    if ionisation_eV is None:
+        return bulk_levels(n, dos, kt, statistics).reshape(shape)
+    s = localised_share(n, np.broadcast_to(np.asarray(mott_cm3, dtype=float), shape).ravel())
+    e = np.broadcast_to(np.asarray(ionisation_eV, dtype=float), shape).ravel() * s
+    g = np.broadcast_to(np.asarray(degeneracy, dtype=float), shape).ravel()
+    return bulk_levels(n, dos, kt, statistics, e, g, s).reshape(shape)
 
 
 def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
@@ -197,8 +247,10 @@ def outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None):
                 core_margin=core_margin, shell_margin=shell_margin, surface_barrier_V=s["phi0"])
 
 
-def prepare(table: DesignTable, statistics: str):
-    """SI arrays of the mirrored p-core problem for every row of a validated table."""
+def prepare(table: DesignTable, statistics: str, dopants=None):
+    """SI arrays of the mirrored p-core problem for every row of a validated table. ``dopants``:
+    the per-row dopant data of ``_ionisation.row_dopants`` (None: full ionisation); the bulk
+    levels (so V_bi0) follow it, the depletion regions stay fully ionised."""
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
     p = table.p_core
@@ -209,8 +261,12 @@ def prepare(table: DesignTable, statistics: str):
     ok = table.ok
     safe = lambda x, fill: np.where(ok, x, fill)  # noqa: E731  keep invalid rows finite
     kt2 = np.tile(safe(kt, 0.025), 2)  # both regions in one call (one Newton loop)
+    ion = {} if dopants is None else dict(
+        level_eV=np.concatenate([dopants["core_E"], dopants["shell_E"]]),
+        degeneracy=np.concatenate([dopants["core_g"], dopants["shell_g"]]),
+        share=np.concatenate([safe(dopants["core_s"], 0.0), safe(dopants["shell_s"], 0.0)]))
     levels = bulk_levels(np.concatenate([safe(v["core_doping_cm3"], 1e17), safe(v["shell_doping_cm3"], 1e17)]),
-                         np.concatenate([safe(core_dos, 1e18), safe(shell_dos, 1e18)]), kt2, statistics)
+                         np.concatenate([safe(core_dos, 1e18), safe(shell_dos, 1e18)]), kt2, statistics, **ion)
     dp, dn = levels[:table.n], levels[table.n:]
     a = safe(v["core_radius_nm"], 50.0) * NM
     return dict(
@@ -244,8 +300,11 @@ CHUNK_ROWS = 1 << 16  #: rows per work unit: keeps temporaries in cache
 THREADS = min(os.cpu_count() or 1, 8)  #: worker threads for large batches (numpy frees the GIL)
 
 
-def deplete_table(table: DesignTable, statistics: str) -> dict:
-    prob, cnl = prepare(table, statistics)
+def deplete_table(table: DesignTable, statistics: str, ionisation: str = "full") -> dict:
+    incomplete, refused, dopants = row_dopants(table, ionisation)
+    if refused is not None:
+        table = DesignTable(table.n, table.material, table.p_core, table.values, refused)
+    prob, cnl = prepare(table, statistics, dopants if incomplete.any() else None)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
         out = outputs(sol, **prob)
@@ -266,10 +325,11 @@ def deplete_table(table: DesignTable, statistics: str) -> dict:
         "shell_margin": np.where(good, out["shell_margin"], nan),
         "surface_barrier_V": np.where(good, out["surface_barrier_V"], nan),
         "junction_edge_nm": np.where(good, out["junction_edge_m"] / NM, nan),
+        "ionisation": np.where(good, ionisation_column(table, incomplete), ""),
     }
 
 
-def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None) -> dict:
+def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None, ionisation: str = "auto") -> dict:
     """Regime and built-in potential of each design by the depletion approximation.
 
     ``designs``: mapping of design-table column -> array or scalar, a list of row dicts, or a
@@ -282,14 +342,17 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     of neutral), ``shell_margin`` (neutral thickness over shell thickness, likewise extended
     below zero), ``surface_barrier_V`` (the surface barrier at full pinning) and
     ``junction_edge_nm`` (radius where the junction's depletion of the shell ends, or the
-    shell's potential extremum when the shell is fully depleted).
+    shell's potential extremum when the shell is fully depleted). ``ionisation``: ``"auto"``,
+    ``"full"`` or ``"incomplete"`` for the bulk levels (``_ionisation``; docs/physics.md section
+    9); the column ``ionisation`` says which model each row used.
     """
     statistics = check_statistics(statistics)
+    ionisation = check_ionisation(ionisation)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     if table.n <= CHUNK_ROWS:
-        return deplete_table(table, statistics)
+        return deplete_table(table, statistics, ionisation)
     parts = [slice(i, min(i + CHUNK_ROWS, table.n)) for i in range(0, table.n, CHUNK_ROWS)]
-    work = lambda sl: deplete_table(table.take(sl), statistics)  # noqa: E731
+    work = lambda sl: deplete_table(table.take(sl), statistics, ionisation)  # noqa: E731
     nthreads = THREADS if threads is None else max(1, int(threads))
     if nthreads > 1:
         with ThreadPoolExecutor(nthreads) as pool:

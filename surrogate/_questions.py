@@ -102,25 +102,26 @@ def _check_count(name, n, lo, hi):
     return int(n)
 
 
-def profile(design: dict, engine: str = "solver", statistics: str = "fermi-dirac") -> dict:
+def profile(design: dict, engine: str = "solver", statistics: str = "fermi-dirac", ionisation: str = "auto") -> dict:
     """Band profile of one design against radius: ``r_nm`` [nm], ``ec_eV``, ``ev_eV`` [eV,
     E_F = 0], ``region`` (core-neutral, core-depleted, interlayer, shell-neutral,
     shell-depleted) and, from the solver, ``n_cm3``, ``p_cm3`` [cm^-3]; plus ``regime``,
     ``vbi_V``, ``core_radius_nm`` and ``outer_radius_nm``. ``engine``: ``"solver"`` (the full
-    Poisson solution) or ``"depletion"`` (the analytic approximation's piecewise bands)."""
+    Poisson solution) or ``"depletion"`` (the analytic approximation's piecewise bands).
+    ``ionisation``: ``"auto"``, ``"full"`` or ``"incomplete"`` (docs/physics.md section 9)."""
     if engine == "depletion":
         from ._profiles import depletion_profile
 
-        return depletion_profile(design, statistics, points=800)
+        return depletion_profile(design, statistics, points=800, ionisation=ionisation)
     if engine != "solver":
         raise DesignError("engine", "one of solver, depletion", engine)
     from .training._profile import solver_profile
 
-    return solver_profile(design, statistics)
+    return solver_profile(design, statistics, ionisation=ionisation)
 
 
 def regime_map(design: dict, x, y, cells=(32, 16), engine: str = DEFAULT_ENGINE,
-               statistics: str = "fermi-dirac", progress=None) -> dict:
+               statistics: str = "fermi-dirac", progress=None, ionisation: str = "auto") -> dict:
     """Regime and V_bi over two design variables, the rest of ``design`` fixed.
 
     ``x``, ``y``: ``(column, low, high)`` in the column's unit (unit suffixes accepted), with an
@@ -143,7 +144,7 @@ def regime_map(design: dict, x, y, cells=(32, 16), engine: str = DEFAULT_ENGINE,
     base = {k: v for k, v in design_row({**base, xcol: xlo, ycol: ylo}).items() if k not in (xcol, ycol)}
     xs, ys = _points(xlo, xhi, nx, xlog), _points(ylo, yhi, ny, ylog)
     designs = _search.grid(base, xcol, xs, ycol, ys)
-    res = answer(designs, engine, statistics, progress=progress)
+    res = answer(designs, engine, statistics, progress=progress, ionisation=ionisation)
     mark = None
     if xcol in design and ycol in design:
         bx, by = parse_quantity(xcol, design[xcol]), parse_quantity(ycol, design[ycol])
@@ -222,7 +223,8 @@ def _why_none(col, base, scan, predict, target, goal):
 
 def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_V: float | None = None,
                         engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", confirm: bool = True,
-                        ranges: dict | None = None, sweep=None, points: int = 9, progress=None) -> dict:
+                        ranges: dict | None = None, sweep=None, points: int = 9, progress=None,
+                        ionisation: str = "auto") -> dict:
     """Smallest core radius [nm] (shell fixed) and thinnest shell [nm] (core fixed) from which
     on V_bi stays at or above the target.
 
@@ -243,7 +245,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
     goal = target_text(fraction_min, vbi_min_V)
     base = design_row({"core_radius_nm": 100.0, "shell_thickness_nm": 100.0, **design})
     scan = _scan_ranges(base, engine, ranges)
-    predict = lambda d: answer(d, engine, statistics)  # noqa: E731
+    predict = lambda d: answer(d, engine, statistics, ionisation=ionisation)  # noqa: E731
     if sweep is not None:
         col, lo, hi, log = _axis("sweep", sweep)
         if col in scan:
@@ -279,7 +281,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
     if confirm and checks:
         rows = [{**base, c: max(out[c]["value_nm"] + dx, 1.0)} for c in checks for dx in (CONFIRM_STEP_NM, -CONFIRM_STEP_NM)]
         t = time.perf_counter()
-        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics)
+        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics, ionisation=ionisation)
         out["solver_seconds"] = time.perf_counter() - t
         ok = _search.meets(ref, **target)
         for k, c in enumerate(checks):
@@ -291,7 +293,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
 def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_min: float | None = 0.9,
            vbi_min_V: float | None = None, regimes=None, candidates: int = 200_000, top: int = 5, seed: int = 0,
            engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", confirm: bool = True,
-           progress=None) -> dict:
+           progress=None, ionisation: str = "auto") -> dict:
     """The best designs among ``candidates`` random ones under a V_bi target.
 
     ``vary``: column -> (low, high) in the column's unit, drawn uniformly (in log for radii,
@@ -335,7 +337,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     t0 = time.perf_counter()
     for s in range(0, n, SEARCH_CHUNK):
         part = {k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()}
-        res = answer(part, engine, statistics)
+        res = answer(part, engine, statistics, ionisation=ionisation)
         ok = _search.meets(res, **target, bound="low" if "vbi_low_V" in res else "value")
         if regimes:
             closest["vbi_ok"] += int(ok.sum())
@@ -361,7 +363,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
         out["reason"] = _why_no_winner(n, closest, space, out["target"], regimes, target)
     elif confirm:
         rows = [b[1] for b in best]
-        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics)
+        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics, ionisation=ionisation)
         meets = _search.meets(ref, **target)
         if regimes:
             meets &= np.isin(ref["regime"], regimes)
@@ -431,7 +433,7 @@ def parse_spread(column: str, text) -> tuple:
 
 def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, fraction_min: float | None = 0.9,
            vbi_min_V: float | None = None, regimes=None, engine: str = DEFAULT_ENGINE,
-           statistics: str = "fermi-dirac", progress=None) -> dict:
+           statistics: str = "fermi-dirac", progress=None, ionisation: str = "auto") -> dict:
     """Growth tolerance: Monte Carlo runs around the nominal ``design`` under run-to-run spread.
 
     ``spreads``: column -> ``"2nm"`` (one standard deviation), ``"25%"`` (relative, in log for
@@ -462,7 +464,7 @@ def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, f
         raise DesignError(missing[0], "a spread needs the nominal value in the design")
     t0 = time.perf_counter()
     samples_ = _search.spread_samples(nominal, parsed, n, seed)
-    res = answer(samples_, engine, statistics, progress=progress)
+    res = answer(samples_, engine, statistics, progress=progress, ionisation=ionisation)
     seconds = time.perf_counter() - t0
     ok = res["status"] == "ok"
     success = _search.meets(res, **target)
