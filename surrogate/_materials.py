@@ -87,7 +87,7 @@ class Material:
             "nc_cm3": float(self.nc(temperature_K)),
             "nv_cm3": float(self.nv(temperature_K)),
             "cnl_eV": self.cnl_eV,
-            **{f"{kind}_{k}": float(v) for kind in ("donor", "acceptor")
+            **{f"{kind}_{k}": (float(v) if np.isfinite(v) else None) for kind in ("donor", "acceptor")
                for k, v in zip(("ionisation_eV", "degeneracy", "mott_cm3"), self.dopant(kind))},
             "temperature_K": float(temperature_K),
             "sources": dict(self.sources),

@@ -39,6 +39,10 @@ BATCH = 256  #: designs per Newton batch
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
 H0_MAX_NM = 1.0  #: ... but at most this [nm]
 HMAX_FRACTION = 0.08  #: largest spacing as a fraction of the outer radius
+#: continuation in the dopants' localised share for designs Newton does not converge from the
+#: depletion start under incomplete ionisation: first stage and smallest stage (``_continue_ionisation``)
+IONISATION_STEP = 0.25
+IONISATION_MIN_STEP = 1.0 / 64
 
 
 def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics, level=None, degeneracy=None, share=None):
@@ -134,6 +138,8 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
         p["ND_ref"] = np.where(inc, p["Nc"] * occupancy((ys - p["Eg"]) / kt, statistics)[0], p["ND"])
     with np.errstate(all="ignore"):
         y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter)
+        if "core_s" in p and not conv.all():
+            _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter)
         out = analyse(y, r, p, a, b, statistics)
     out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc, y_core=yc, y_shell=ys,
                Eg=p["Eg"], tunnel_log10=tunnel_log10(out["peak_field_V_per_m"], p["Eg"], p["Nc"] / 1e6,
@@ -142,6 +148,33 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
         hole, _, elec, _ = carriers(y, p, statistics)
         out.update(r=r, y=y, hole=hole, elec=elec, **{k: p[k] for k in ("NA_ref", "ND_ref") if k in p})
     return out
+
+
+def _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter):
+    """Designs with incomplete ionisation that Newton did not converge from the depletion start
+    (cold, lightly doped wires with a deep level, where the ionised share switches within a few
+    kT): solved again, one by one, by continuation in the dopants' localised share s, scaled from
+    0 (full ionisation) to 1 (the model) in stages of ``IONISATION_STEP`` that halve after a
+    failed stage (down to ``IONISATION_MIN_STEP``) and grow by half after a converged one, each
+    started from the last converged stage. Updates y, iters (all stages counted), conv and last
+    in place."""
+    for c in np.flatnonzero(~conv & ((p["core_s"] > 0) | (p["shell_s"] > 0))):
+        sub = {k: (v[..., c:c + 1] if np.ndim(v) else v) for k, v in p.items()}
+        yc, total, frac, step, ok = y0[:, c:c + 1], 0, 0.0, 0.0, True
+        while ok:
+            target = min(1.0, frac + step)
+            stage = dict(sub, core_s=sub["core_s"] * target, shell_s=sub["shell_s"] * target)
+            yn, it, cv, ls = newton(yc, stage, statistics, max_iter=max_iter)
+            total += int(it[0])
+            if cv[0]:
+                yc, frac = yn, target
+                if frac >= 1.0:
+                    break
+                step = IONISATION_STEP if step == 0.0 else min(1.5 * step, 1.0 - frac)
+            else:
+                step *= 0.5
+                ok = step >= IONISATION_MIN_STEP
+        y[:, c:c + 1], iters[c], conv[c], last[c] = yc if ok else yn, iters[c] + total, ok, 0.0 if ok else ls[0]
 
 
 def _crossing(r, ln_ratio, idx, inner):
