@@ -66,7 +66,7 @@ def predict(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dira
     disagreements); ``confirm`` (auto) re-answers flagged rows with the solver.
     ``progress(done, total)`` is called on long runs. ``ionisation``: ``"auto"`` (default:
     incomplete below ``IONISATION_AUTO_BELOW_K`` or with a deep dopant), ``"full"`` or
-    ``"incomplete"`` (docs/physics.md section 9); the ``ionisation`` column says which was used."""
+    ``"incomplete"`` (docs/physics.md section 4.1); the ``ionisation`` column says which was used."""
     return _like_input(designs, _engines.answer(designs, engine, statistics, second_opinion, progress=progress,
                                                 confirm=confirm, ionisation=ionisation))
 

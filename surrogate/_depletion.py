@@ -344,7 +344,7 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     ``junction_edge_nm`` (radius where the junction's depletion of the shell ends, or the
     shell's potential extremum when the shell is fully depleted). ``ionisation``: ``"auto"``,
     ``"full"`` or ``"incomplete"`` for the bulk levels (``_ionisation``; docs/physics.md section
-    9); the column ``ionisation`` says which model each row used.
+    4.1); the column ``ionisation`` says which model each row used.
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)

@@ -17,7 +17,7 @@ x = (E_g - E_i - y)/kT for the shell, the unionised share is s / (1 + exp(x)/g).
 ``ionisation``: "full", "incomplete" or "auto" (the default): incomplete for a row below
 ``AUTO_BELOW_K`` or with a deep dopant (dilute-limit E_i0 >= ``DEEP_EV``), else full; a material
 without dopant levels stays full under "auto" and is refused under "incomplete".
-docs/physics.md section 9 gives the reasons for both numbers.
+docs/physics.md section 4.1 gives the reasons for both numbers.
 """
 
 from __future__ import annotations

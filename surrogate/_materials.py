@@ -106,7 +106,8 @@ def mott_density(ionisation_eV, permittivity_rel):
     a_B = q^2 / (8 pi eps0 eps_r E_i0) (Sze & Ng, 3rd ed., sec. 1.4.1). For Si (E_i0 = 45 meV)
     it gives 7e18 cm^-3, against the 5e18 cm^-3 above which Pearson & Bardeen measured no
     activation energy for boron (Phys. Rev. 75, 865 (1949), doi:10.1103/PhysRev.75.865)."""
-    a_b_nm = _E2_4PI_EPS0_EV_NM / (2.0 * np.asarray(permittivity_rel, dtype=float) * np.asarray(ionisation_eV, dtype=float))
+    eps_r = np.asarray(permittivity_rel, dtype=float)
+    a_b_nm = _E2_4PI_EPS0_EV_NM / (2.0 * eps_r * np.asarray(ionisation_eV, dtype=float))
     return (MOTT_CRITERION / a_b_nm) ** 3 * 1e21
 
 
@@ -139,7 +140,6 @@ def _with_dopants(m, fields_sources):
 # Values recalled from the named handbooks are marked "from memory": check them against the
 # printed tables before relying on the last meV.
 _BUILTIN = (
-
     _with_dopants(
     Material("GaAs", 1.424, 5.405e-4, 204.0, 12.9, 4.7e17, 9.0e18, 0.50, _src(
         f"{_SZE} (from memory)", f"{_VUR} III (from memory)", f"{_SZE} (from memory)",
@@ -155,13 +155,19 @@ _BUILTIN = (
         f"{_IOFFE} (from memory)", f"{_VUR} III (from memory)", f"{_IOFFE} (from memory)",
         f"{_IOFFE} (from memory)",
         f"{_MONCH} (from memory); lies above the conduction-band edge: InAs surfaces accumulate")),
-        _dopants(0.0014, "hydrogenic estimate 13.6 eV (m*/m0) / eps_r^2 with m* = 0.023 m0 (Sze & Ng, 3rd ed., sec. 1.4.1; mass from memory)", 0.010, f"Zn acceptor: {_IOFFE} (from memory)")),
+        _dopants(0.0014, "hydrogenic estimate 13.6 eV (m*/m0) / eps_r^2 with m* = 0.023 m0 (Sze & Ng, 3rd "
+                 "ed., sec. 1.4.1; mass from memory)", 0.010, f"Zn acceptor: {_IOFFE} (from memory)")),
     _with_dopants(
     Material("GaN", 3.39, 0.909e-3, 830.0, 8.9, 2.3e18, 4.6e19, 2.40, _src(
         f"{_IOFFE}, wurtzite (from memory)", f"{_VUR} VIII, wurtzite (from memory)",
         f"{_IOFFE}, wurtzite (from memory)", f"{_IOFFE}, wurtzite (from memory)",
         f"{_MONCH} (from memory)")),
-        _dopants(0.015, f"Si donor: {_IOFFE}, 12-17 meV (from memory)", 0.17, "Mg acceptor: Hall activation energy 170 +/- 5 meV of Mg-doped films (Korotkov, Gregie & Wessels, Appl. Phys. Lett. 78, 222 (2001); value checked, citation details from memory)", 5.0e20, f"donor: {_MOTT}; Mg (deep, not hydrogenic): E_A = E_A0 - alpha N^(1/3) with alpha ~ 2e-8 eV cm from Hall data (Brochen et al., Appl. Phys. Lett. 103, 032102 (2013), from memory), vanishing near 5e20 cm^-3")),
+        _dopants(0.015, f"Si donor: {_IOFFE}, 12-17 meV (from memory)", 0.17,
+                 "Mg acceptor: Hall activation energy 170 +/- 5 meV of Mg-doped films (Korotkov, Gregie & "
+                 "Wessels, Appl. Phys. Lett. 78, 222 (2001); value checked, citation details from memory)", 5.0e20,
+                 f"donor: {_MOTT}; Mg (deep, not hydrogenic): E_A = E_A0 - alpha N^(1/3) with alpha ~ 2e-8 eV "
+                 "cm from Hall data (Brochen et al., Appl. Phys. Lett. 103, 032102 (2013), from memory), "
+                 "vanishing near 5e20 cm^-3")),
     _with_dopants(
     Material("Si", 1.12, 4.73e-4, 636.0, 11.9, 2.86e19, 2.66e19, 0.36, _src(
         f"{_SZE} (from memory)",
@@ -184,7 +190,7 @@ _REQUIRED = {
     "nc_300_cm3": (1e14, 1e22), "nv_300_cm3": (1e14, 1e22), "cnl_eV": (-2.0, 12.0),
 }
 
-_OPTIONAL = {  # dopant fields (section 9 of docs/physics.md); absent: no level (ionisation stays full)
+_OPTIONAL = {  # dopant fields (section 4.1 of docs/physics.md); absent: no level (ionisation stays full)
     "donor_ionisation_eV": (0.0, 2.0), "acceptor_ionisation_eV": (0.0, 2.0), "donor_degeneracy": (0.1, 16.0),
     "acceptor_degeneracy": (0.1, 16.0), "donor_mott_cm3": (1e12, 1e23), "acceptor_mott_cm3": (1e12, 1e23),
 }

@@ -108,7 +108,7 @@ def profile(design: dict, engine: str = "solver", statistics: str = "fermi-dirac
     shell-depleted) and, from the solver, ``n_cm3``, ``p_cm3`` [cm^-3]; plus ``regime``,
     ``vbi_V``, ``core_radius_nm`` and ``outer_radius_nm``. ``engine``: ``"solver"`` (the full
     Poisson solution) or ``"depletion"`` (the analytic approximation's piecewise bands).
-    ``ionisation``: ``"auto"``, ``"full"`` or ``"incomplete"`` (docs/physics.md section 9)."""
+    ``ionisation``: ``"auto"``, ``"full"`` or ``"incomplete"`` (docs/physics.md section 4.1)."""
     if engine == "depletion":
         from ._profiles import depletion_profile
 

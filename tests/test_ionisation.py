@@ -1,4 +1,4 @@
-"""Incomplete ionisation (docs/physics.md section 9): the ionised fraction against a textbook
+"""Incomplete ionisation (docs/physics.md section 4.1): the ionised fraction against a textbook
 worked example and the freeze-out limit, full ionisation recovered for a vanishing level and
 above the Mott density, the depletion engine's V_bi0 against a scipy brentq neutrality solve,
 the solver against an independent solve_bvp, and the option's flow through the engines."""

@@ -12,7 +12,7 @@ whole; Sze & Ng, Physics of Semiconductor Devices, 3rd ed., sec. 8.2 for the sur
 charge). Discretisation: vertex-centred finite volumes with faces at the midpoints and face
 areas proportional to r (so charge is conserved exactly; S. Selberherr, Analysis and Simulation
 of Semiconductor Devices, Springer 1984, sec. 6.1), dopant charge integrated exactly over each
-control volume. Incomplete ionisation (``_ionisation``, docs/physics.md section 9): where ``p``
+control volume. Incomplete ionisation (``_ionisation``, docs/physics.md section 4.1): where ``p``
 holds the dopant levels (core_E, core_g, core_s, shell_E, shell_g, shell_s), N_A and N_D are
 scaled by the ionised fraction at each node's y (acceptor core: x = (y - E_i)/kT; donor shell:
 x = (E_g - E_i - y)/kT), its y-derivative entering the Jacobian's diagonal. Newton's method with the tridiagonal Jacobian, each node's update limited to

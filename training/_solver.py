@@ -3,7 +3,8 @@ Poisson solution (``_poisson``), batched and optionally spread over threads; num
 
 Regime criterion (documented in README, DEVELOPERS.md and docs/physics.md section 8.5): a region
 keeps a neutral part when its majority-carrier density reaches at least half its doping
-somewhere in it (for a degenerate region this is reached with the bands still short of their
+somewhere in it (with incomplete ionisation: half the neutral bulk's majority density, the
+ionised share of the doping) (for a degenerate region this is reached with the bands still short of their
 bulk position, so V_bi may fall below V_bi0 while both regions keep a neutral part). Margins:
 ``core_majority_ln = ln(2 max p_core / N_core)`` and ``shell_majority_ln = ln(2 max n_shell /
 N_shell)`` (majority carriers; named apart from the depletion engine's geometric
@@ -332,7 +333,7 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     and ``solver_version``. A design that does not converge carries the reason in ``status``
     and no numbers. ``max_iter``: Newton steps before a design is declared not converged.
     ``ionisation``: ``"auto"`` (default), ``"full"`` or ``"incomplete"`` (docs/physics.md section
-    9); the column ``ionisation`` says which model each row used.
+    4.1); the column ``ionisation`` says which model each row used.
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)
