@@ -68,6 +68,19 @@ def ionised_fraction(level_minus_fermi_eV, kt_eV, degeneracy=2.0, share=1.0):
     return 1.0 - u
 
 
+def _any_deep(material) -> bool:
+    """Whether any of the (canonical) material names has a dopant ``DEEP_EV`` deep or deeper."""
+    from ._materials import material_names
+
+    deep = []
+    for name in material_names():
+        m = get_material(name)
+        levels = (m.donor_ionisation_eV, m.acceptor_ionisation_eV)
+        if any(np.isfinite(e) and e >= DEEP_EV for e in levels):
+            deep.append(name)
+    return any(bool(np.any(material == name)) for name in deep)
+
+
 def row_dopants(table, ionisation: str):
     """Per-row dopant data of the mirrored p-core problem and the resolved model.
 
@@ -88,6 +101,8 @@ def row_dopants(table, ionisation: str):
         return incomplete, status, out
     ok = table.ok
     t = v["temperature_K"]
+    if ionisation == "auto" and not (ok & (t < AUTO_BELOW_K)).any() and not _any_deep(table.material[ok]):
+        return incomplete, status, out  # the common case: warm rows of shallow-dopant materials
     names, inv = categories(table.material, n)
     for k, name in enumerate(names):
         sel = (inv == k) & ok
