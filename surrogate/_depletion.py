@@ -325,7 +325,8 @@ def deplete_table(table: DesignTable, statistics: str, ionisation: str = "full")
         "shell_margin": np.where(good, out["shell_margin"], nan),
         "surface_barrier_V": np.where(good, out["surface_barrier_V"], nan),
         "junction_edge_nm": np.where(good, out["junction_edge_m"] / NM, nan),
-        "ionisation": np.where(good, ionisation_column(table, incomplete), ""),
+        "ionisation": ionisation_column(DesignTable(table.n, table.material, table.p_core, table.values, status),
+                                        incomplete),
     }
 
 

@@ -139,4 +139,8 @@ def row_dopants(table, ionisation: str):
 
 def ionisation_column(table, incomplete):
     """The ``ionisation`` output column: "full" or "incomplete" per valid row, "" elsewhere."""
-    return np.where(table.ok, np.where(incomplete, "incomplete", "full"), "").astype(object)
+    out = np.full(table.n, "", dtype=object)
+    ok = table.ok
+    out[ok] = "full"
+    out[ok & incomplete] = "incomplete"
+    return out
