@@ -15,7 +15,9 @@ w = r_n^2/a^2, v = r_s^2/R^2 and h(x) = 1 - x + x ln x the balances become
 
 with K = q/(4 eps), delta_p = E_F - E_v in the neutral core, delta_n = E_c - E_F in the neutral
 shell, and V_bi0 = E_g - delta_p - delta_n (Sze & Ng, Physics of Semiconductor Devices, 3rd
-ed., 2007, sec. 2.2, eq. 2.10 in the Boltzmann limit). Each balance is monotone in its unknown
+ed., 2007, sec. 2.2, eq. 2.10 in the Boltzmann limit; with incomplete ionisation the bulk
+levels delta_p, delta_n come from the ionised dopants, ``_ionisation``, while the depletion
+regions stay fully ionised). Each balance is monotone in its unknown
 and is solved by a vectorised safeguarded Newton iteration (``_roots``).
 
 Regimes: junction and surface solved alone; if the junction's shell edge r_n lies inside the
