@@ -5,7 +5,7 @@
 On random designs spanning the solver's whole domain (every material of the table, both core
 types, core 5-500 nm, shell 1-500 nm, dopings 1e15-1e20 cm^-3, D_it 0-1e15 cm^-2 eV^-1, neutral
 level anywhere in the gap, 77-500 K) it prints, in one run:
-  - the convergence rate and Newton iteration counts,
+  - the convergence rate and Newton iteration counts (and with full and with incomplete ionisation),
   - solver throughput with 1 and with --jobs workers, next to the depletion engine's on the
     same designs (and their ratio),
   - grid convergence: |V_bi(default grid) - V_bi(4x finer grid)| on --grid-check designs.
@@ -59,6 +59,13 @@ def main() -> None:
         print(f"  {stat:12s} converged {ok.mean():.4%} ({(~ok).sum()} not); Newton steps mean {it.mean():.1f}, "
               f"p99 {np.percentile(it, 99):.0f}, max {it.max()}; max charge residual "
               f"{np.nanmax(out['charge_residual']):.1e}")
+    for ion in ("full", "incomplete"):  # the charge model of docs/physics.md section 9 on every row
+        out, ti = timed(lambda: solve(d, ionisation=ion))
+        stuck = np.array([str(x).startswith("solver: no convergence") for x in out["status"]])
+        it = out["iterations"][out["status"] == "ok"]
+        print(f"  ionisation {ion:10s} no convergence {stuck.sum()} of {stuck.size}; answered "
+              f"{np.mean(out['status'] == 'ok'):.2%}; Newton steps mean {it.mean():.2f}, max {it.max()}; "
+              f"{stuck.size / ti:,.0f} designs/s")
     _, t1 = timed(lambda: solve(d))
     solve({k: (v[:600] if np.ndim(v) else v) for k, v in d.items()}, n_jobs=a.jobs)  # start the workers
     _, tj = timed(lambda: solve(d, n_jobs=a.jobs))

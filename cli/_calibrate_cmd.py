@@ -33,7 +33,8 @@ def register(sub) -> None:
                     help="an unknown: dit, cnl, shell-doping or core-doping; prior log-uniform:LOW:HIGH, "
                          "uniform:LOW:HIGH, normal:MEAN:SD, log-normal:MEDIAN:SD_DEX (default: docs/calibrate.md); "
                          ",per-row for one per wire (repeatable)")
-    engine_flags(sp, engines=("surrogate", "depletion", "solver"), default="surrogate")
+    # calibration keeps the default ionisation ("auto"): its engines answer the bundles' domain
+    engine_flags(sp, engines=("surrogate", "depletion", "solver"), default="surrogate", ionisation=False)
     sp.add_argument("--steps", type=int, default=1500, help="kept sampler steps (default 1500)")
     sp.add_argument("--burn", type=int, default=500, help="discarded sampler steps (default 500)")
     sp.add_argument("--walkers", type=int, default=None, help="walkers (default max(32, 4 per unknown))")

@@ -27,7 +27,7 @@ EXTRA_OUTPUTS = ("regime_prob", "vbi_low_V", "vbi_high_V", "in_domain", "confirm
                  "core_margin", "shell_margin", "junction_edge_nm",  # depletion engine
                  "core_majority_ln", "shell_majority_ln", "charge_residual", "surface_accumulation_V",  # solver
                  "peak_field_V_per_cm", "tunnel_log10", "iterations", "solver_version",
-                 "engine_note")  # auto: why the solver answered a row
+                 "ionisation", "engine_note")  # auto: why the solver answered a row
 
 
 def register(sub) -> None:
@@ -91,9 +91,11 @@ def cmd_ask(args, console, out) -> int:
         except (radialpn.BundleError, radialpn.DesignError):
             pass  # predict reports it in status
     if args.engine != "solver":  # warm up (lookup tables built on first use), then time the answer
-        radialpn.predict(table, args.engine, args.statistics, second_opinion=True, confirm=args.confirm)
+        radialpn.predict(table, args.engine, args.statistics, second_opinion=True, confirm=args.confirm,
+                         ionisation=args.ionisation)
     t = time.perf_counter()
-    result = radialpn.predict(table, args.engine, args.statistics, second_opinion=True, confirm=args.confirm)
+    result = radialpn.predict(table, args.engine, args.statistics, second_opinion=True, confirm=args.confirm,
+                         ionisation=args.ionisation)
     elapsed = time.perf_counter() - t
     mat = radialpn.get_material(table.material[0])
     if math.isnan(table.values["cnl_eV"][0]):  # show the material's default explicitly
@@ -103,7 +105,7 @@ def cmd_ask(args, console, out) -> int:
     check = None
     if args.verify and row["status"] == "ok" and row["engine"] != "solver":
         t = time.perf_counter()
-        check = _row(table, radialpn.solve(table, args.statistics), 0)
+        check = _row(table, radialpn.solve(table, args.statistics, ionisation=args.ionisation), 0)
         check["seconds"] = time.perf_counter() - t
     if args.json:
         data = {k: _json_value(v) for k, v in row.items()}
@@ -137,7 +139,8 @@ def cmd_batch(args, console, out) -> int:
     designs = {c: [r[index[c]] for r in rows] for c in INPUT_COLUMNS if c in index}
     if rows:
         result = answer_with_progress(normalize_designs(designs), args.engine, args.statistics, console,
-                                      second_opinion=args.second_opinion, confirm=args.confirm)
+                                      second_opinion=args.second_opinion, confirm=args.confirm,
+                                      ionisation=args.ionisation)
     else:  # a header alone: the answer is the header with its output columns
         result = {c: np.zeros(0, dtype=object) for c in radialpn.OUTPUT_COLUMNS}
     out_cols = [c for c in reserved if c in result]

@@ -63,8 +63,9 @@ def help_text() -> str:
 class Session:
     """The design being explored, its engine, the undo history and the last answers."""
 
-    def __init__(self, design: dict, engine: str, statistics: str, assumed=()):
+    def __init__(self, design: dict, engine: str, statistics: str, assumed=(), ionisation: str = "auto"):
         self.design, self.engine, self.statistics = dict(design), engine, statistics
+        self.ionisation = ionisation
         self.assumed = set(assumed)  #: columns taken from PLAN and not set since
         self.history: list = []
         self.last = None
@@ -73,7 +74,7 @@ class Session:
     def answer(self) -> dict:
         t = time.perf_counter()
         res = radialpn.predict({k: [v] for k, v in self.design.items()}, self.engine, self.statistics,
-                               second_opinion=self.engine in ("surrogate", "auto"))
+                               second_opinion=self.engine in ("surrogate", "auto"), ionisation=self.ionisation)
         row = {k: (v[0].item() if hasattr(v[0], "item") else v[0]) for k, v in res.items()}
         row["ms"] = 1e3 * (time.perf_counter() - t)
         row["verified"] = self.verified == (self.design, self.engine)
@@ -116,7 +117,7 @@ class Session:
     def verify(self) -> dict:
         """The reference solver on the current design, compared with the last answer."""
         t = time.perf_counter()
-        ref = radialpn.solve({k: [v] for k, v in self.design.items()}, self.statistics)
+        ref = radialpn.solve({k: [v] for k, v in self.design.items()}, self.statistics, ionisation=self.ionisation)
         out = {"regime": str(ref["regime"][0]), "vbi_V": float(ref["vbi_V"][0]), "status": str(ref["status"][0]),
                "ms": 1e3 * (time.perf_counter() - t)}
         last = self.answer()
@@ -142,7 +143,8 @@ def start_session(args) -> Session:
     if table.status[0] != "ok":
         raise _errors.UsageError(str(table.status[0]))
     clean = clean_design(table)
-    session = Session(clean, args.engine, args.statistics, assumed=[k for k in PLAN if k not in given])
+    session = Session(clean, args.engine, args.statistics, assumed=[k for k in PLAN if k not in given],
+                      ionisation=args.ionisation)
     if args.engine in ("surrogate", "auto"):
         try:
             radialpn.load(clean["material"], clean["core_type"])  # warm before the first answer

@@ -36,14 +36,26 @@ def flag_hint(message: str) -> str:
     return f"{flag} ({message})" if flag else message
 
 
-def engine_flags(sp, engines=None, default=None) -> None:
-    """--engine and --statistics, shared by every command that asks an engine."""
+def engine_flags(sp, engines=None, default=None, ionisation=True) -> None:
+    """--engine and --statistics (and --ionisation unless ``ionisation`` is False), shared by
+    every command that asks an engine."""
     import radialpn
 
     engines = engines or radialpn.ENGINES
     sp.add_argument("--engine", choices=engines, default=default or radialpn.DEFAULT_ENGINE, help="which engine answers")
     sp.add_argument("--statistics", choices=radialpn.STATISTICS, default="fermi-dirac",
                     help="carrier statistics for the bulk Fermi levels (default fermi-dirac)")
+    if ionisation:
+        ionisation_flag(sp)
+
+
+def ionisation_flag(sp) -> None:
+    """--ionisation, beside --statistics wherever an engine answers."""
+    import radialpn
+
+    sp.add_argument("--ionisation", choices=radialpn.IONISATION, default="auto",
+                    help=f"dopant ionisation (default auto: incomplete below {radialpn.IONISATION_AUTO_BELOW_K:g} K "
+                         f"or for dopants {radialpn.IONISATION_DEEP_EV:g} eV deep or deeper, else full)")
 
 
 def confirm_flag(sp) -> None:

@@ -141,7 +141,8 @@ def cmd_map(args, console, out) -> int:
         raise _errors.UsageError(f"--cells: expected WIDTHxHEIGHT, e.g. 32x16 (got {args.cells!r})") from None
     bar, update = progress_bar(console, f"{args.engine} engine")
     with bar:
-        m = radialpn.regime_map(design_from_args(args), x, y, cells, args.engine, args.statistics, progress=update)
+        m = radialpn.regime_map(design_from_args(args), x, y, cells, args.engine, args.statistics, progress=update,
+                                ionisation=args.ionisation)
     xs, ys, xcol, ycol = m["x_values"], m["y_values"], m["x_column"], m["y_column"]
     regime, vbi, res = m["regime"], m["vbi_V"], m["answers"]
     nx, ny = xs.size, ys.size

@@ -12,7 +12,7 @@ import radialpn
 
 from . import _errors, _png
 from . import _format as F
-from ._designargs import add_design_flags, design_from_args, flag_hint
+from ._designargs import add_design_flags, design_from_args, flag_hint, ionisation_flag
 from ._plot import BrailleCanvas
 from ._render import CAUTION, design_line, regime_text
 
@@ -26,6 +26,7 @@ def register(sub) -> None:
     add_design_flags(prof)
     prof.add_argument("--engine", choices=("solver", "depletion"), default="solver", help="which engine draws")
     prof.add_argument("--statistics", choices=radialpn.STATISTICS, default="fermi-dirac", help="carrier statistics")
+    ionisation_flag(prof)
     prof.add_argument("--compare", action="store_true", help="overlay the depletion approximation's bands")
     prof.add_argument("--png", metavar="FILE", help="also write a PNG (needs the plot extra: matplotlib)")
     prof.add_argument("--json", action="store_true", help="print the profile arrays as JSON")
@@ -42,11 +43,11 @@ def cmd_profile(args, console, out) -> int:
     table = radialpn.normalize_designs({k: [v] for k, v in design.items()})
     if table.status[0] != "ok":
         raise _errors.UsageError(flag_hint(str(table.status[0])))
-    main = radialpn.profile(design, args.engine, args.statistics)
+    main = radialpn.profile(design, args.engine, args.statistics, args.ionisation)
     other = None
     if args.compare:
         try:
-            other = radialpn.profile(design, "depletion", args.statistics)
+            other = radialpn.profile(design, "depletion", args.statistics, args.ionisation)
         except radialpn.RadialpnError as exc:
             other = str(exc)
     if args.json:

@@ -57,7 +57,8 @@ def cmd_report(args, console, out) -> int:
     plt = _png.pyplot() if args.pdf else None  # fail before the work if matplotlib is missing
     with console.status("computing the review: answer, solver check, bands, map, critical dimensions, yield"):
         rv = radialpn.review(design_from_args(args), spreads, args.samples, cells, **target_from_args(args),
-                             engine=args.engine, statistics=args.statistics, seed=args.seed)
+                             engine=args.engine, statistics=args.statistics, seed=args.seed,
+                             ionisation=args.ionisation)
     if args.output:
         with atomic_text(args.output, "-o") as fh:
             fh.write(page(rv))

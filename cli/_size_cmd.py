@@ -101,7 +101,7 @@ def cmd_size(args, console, out) -> int:
         return _sweep(args, console, out, design, target, goal)
     sized = _sized(args.sized)
     res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics,
-                                       confirm=not args.no_confirm, sized=sized)
+                                       ionisation=args.ionisation, confirm=not args.no_confirm, sized=sized)
     rows = size_rows(res)
     if args.csv:
         write_csv(args.csv, SIZE_FIELDS, rows)
@@ -196,7 +196,7 @@ def _sweep(args, console, out, design, target, goal):
     col, lo, hi = axis_spec(args.sweep, "--sweep")
     bar, update = progress_bar(console, "sweeping")
     with bar:
-        res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics,
+        res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics, ionisation=args.ionisation,
                                            sweep=(col, lo, hi), points=args.points, progress=update)
     base = res["design"]
     xs, core, shell = res["sweep_values"], res["core_radius_nm"], res["shell_thickness_nm"]
@@ -271,7 +271,7 @@ def cmd_search(args, console, out) -> int:
     with bar:
         res = radialpn.search(fixed, vary, args.minimize, **target, regimes=args.regime, candidates=args.candidates,
                               top=args.top, seed=args.seed, engine=args.engine, statistics=args.statistics,
-                              progress=update, avoid_tunnelling=not args.allow_tunnelling)
+                              ionisation=args.ionisation, progress=update, avoid_tunnelling=not args.allow_tunnelling)
     w, n, elapsed = res["winners"], res["candidates"], res["seconds"]
     header = [c for c in list(vary) + list(SEARCH_EXTRA) if c in w]
     rows = [[w[c][k] for c in header] for k in range(w["objective"].size)]

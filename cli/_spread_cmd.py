@@ -79,7 +79,8 @@ def cmd_spread(args, console, out) -> int:
     bar, update = progress_bar(console, f"{args.engine} engine")
     with bar:
         r = radialpn.spread(design_from_args(args), spreads, args.samples, args.seed, **target, regimes=args.regime,
-                            engine=args.engine, statistics=args.statistics, progress=update)
+                            engine=args.engine, statistics=args.statistics, progress=update,
+                            ionisation=args.ionisation)
     spreads, probs, effects, shift = r["spreads"], r["regime_probability"], r["main_effects"], r["failing_mean_z"]
     elapsed, vb, goal = r["seconds"], r["vbi_V"], r["target"]
     pct = list(r["vbi_percentiles_V"].values())

@@ -36,7 +36,7 @@ from ._engines import DEFAULT_ENGINE, ENGINES
 from ._errors import DesignError, MaterialError, RadialpnError
 from ._frames import like_input as _like_input
 from ._materials import (
-    Material, get_material, load_material_file, material_from_dict, material_names,
+    Material, get_material, load_material_file, material_from_dict, material_names, mott_density,
     register_material,
 )
 from ._model import SurrogateModel, available, load, load_bundle
@@ -46,13 +46,17 @@ from ._review import DEFAULT_SPREADS, review
 from ._search import main_effects
 from ._trees import threads as worker_threads
 from ._tunnel import TUNNEL_RISK_LOG10
+from ._depletion import bulk_level
+from ._ionisation import (
+    AUTO_BELOW_K as IONISATION_AUTO_BELOW_K, DEEP_EV as IONISATION_DEEP_EV, IONISATION, ionised_fraction,
+)
 from ._statistics import STATISTICS, fermi_half, fermi_half_inverse, intrinsic_density, reduced_level
 
 __version__ = "0.2.0"
 
 
 def predict(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", second_opinion: bool = False,
-            confirm: bool = False, progress=None):
+            confirm: bool = False, progress=None, ionisation: str = "auto"):
     """Regime and built-in potential of each design by ``engine``: ``"auto"`` (default: the
     surrogate inside a validated bundle's domain, the reference solver for every other valid
     row; ``engine`` and ``engine_note`` say which answered and why), ``"surrogate"`` (the
@@ -61,24 +65,29 @@ def predict(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dira
     trained domain get a status and no numbers), ``"depletion"`` or ``"solver"``.
     ``second_opinion`` adds the surrogate's Gaussian-process columns ``vbi_gp_*`` [V] (and flags
     disagreements); ``confirm`` (auto) re-answers flagged rows with the solver.
-    ``progress(done, total)`` is called on long runs."""
+    ``progress(done, total)`` is called on long runs. ``ionisation``: ``"auto"`` (default:
+    incomplete below ``IONISATION_AUTO_BELOW_K`` or with a deep dopant), ``"full"`` or
+    ``"incomplete"`` (docs/physics.md section 4.1); the ``ionisation`` column says which was used."""
     return _like_input(designs, _engines.answer(designs, engine, statistics, second_opinion, progress=progress,
-                                                confirm=confirm))
+                                                confirm=confirm, ionisation=ionisation))
 
 
-def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_jobs: int = 1):
+def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_jobs: int = 1,
+          ionisation: str = "auto"):
     """The reference solver (see ``radialpn._engines.solve``): the full nonlinear Poisson
     equation in the cylinder, Fermi-Dirac or Boltzmann statistics, surface states; numpy only.
-    ``nodes``: grid nodes per design (default 400); ``n_jobs``: threads (-1: one per core)."""
-    return _like_input(designs, _engines.solve(designs, statistics, nodes, n_jobs))
+    ``nodes``: grid nodes per design (default 400); ``n_jobs``: threads (-1: one per core);
+    ``ionisation``: ``"auto"``, ``"full"`` or ``"incomplete"`` (as for ``predict``)."""
+    return _like_input(designs, _engines.solve(designs, statistics, nodes, n_jobs, ionisation))
 
 
-def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None):
+def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None, ionisation: str = "auto"):
     """The depletion approximation's four-regime answer (equations in docs/physics.md), plus
     the continuous boundary margins ``core_margin``, ``shell_margin`` [1], the surface barrier
     ``surface_barrier_V`` [V] and ``junction_edge_nm`` [nm]. ``threads``: worker threads for
-    large batches."""
-    return _like_input(designs, _depletion.deplete(designs, statistics, threads))
+    large batches; ``ionisation`` (as for ``predict``) sets the bulk levels, so V_bi0; the
+    depletion regions stay fully ionised."""
+    return _like_input(designs, _depletion.deplete(designs, statistics, threads, ionisation))
 
 
 def calibrate(observations, unknowns, engine: str = "surrogate", statistics: str = "fermi-dirac",
@@ -125,7 +134,8 @@ __all__ = [
     "load", "load_bundle", "available", "SurrogateModel",
     "check_design", "normalize_designs", "parse_quantity", "DesignTable",
     "get_material", "material_names", "register_material", "load_material_file", "material_from_dict", "Material",
-    "fermi_half", "fermi_half_inverse", "intrinsic_density", "reduced_level",
+    "fermi_half", "fermi_half_inverse", "intrinsic_density", "reduced_level", "ionised_fraction", "bulk_level",
+    "IONISATION", "IONISATION_AUTO_BELOW_K", "IONISATION_DEEP_EV", "mott_density",
     "CORE_TYPES", "INPUT_COLUMNS", "OUTPUT_COLUMNS", "NUMERIC_COLUMNS", "REGIMES", "STATISTICS", "ENGINES",
     "DEFAULT_ENGINE", "TUNNEL_RISK_LOG10", "worker_threads",
     "RadialpnError", "DesignError", "MaterialError", "BundleError",

@@ -23,7 +23,7 @@ OBJECTIVES = ("total-radius", "core-radius", "shell-thickness")
 def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_min: float | None = 0.9,
            vbi_min_V: float | None = None, regimes=None, candidates: int = 200_000, top: int = 5, seed: int = 0,
            engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", confirm: bool = True,
-           progress=None, avoid_tunnelling: bool = True) -> dict:
+           progress=None, avoid_tunnelling: bool = True, ionisation: str = "auto") -> dict:
     """The best designs among ``candidates`` random ones under a V_bi target.
 
     ``vary``: column -> (low, high) in the column's unit, drawn uniformly (in log for radii,
@@ -74,7 +74,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     t0 = time.perf_counter()
     for s in range(0, n, SEARCH_CHUNK):
         part = {k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()}
-        res = answer(part, engine, statistics, models=SEARCH_MODELS + (("regime",) if regimes else ()))
+        res = answer(part, engine, statistics, ionisation=ionisation, models=SEARCH_MODELS + (("regime",) if regimes else ()))
         ok = _search.meets(res, **target, bound="low" if "vbi_low_V" in res else "value")
         if regimes:
             closest["vbi_ok"] += int(ok.sum())
@@ -99,7 +99,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
         if progress:
             progress(min(s + SEARCH_CHUNK, n), n)
     if best and not regimes:  # the winners' regime: their full answer (the scan skipped the regime trees)
-        again = answer({k: [b[1][k] for b in best] for k in best[0][1]}, engine, statistics)
+        again = answer({k: [b[1][k] for b in best] for k in best[0][1]}, engine, statistics, ionisation=ionisation)
         best = [(o, row, str(r), *rest) for (o, row, _, *rest), r in zip(best, again["regime"])]
     seconds = time.perf_counter() - t0
     winners = {c: np.array([b[1][c] for b in best], dtype=float) for c in space}
@@ -119,7 +119,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
                              "(vary interlayer_nm) would, or allow the risk (avoid_tunnelling=False)")
     elif confirm:
         rows = [b[1] for b in best]
-        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics)
+        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics, ionisation=ionisation)
         meets = _search.meets(ref, **target)
         if regimes:
             meets &= np.isin(ref["regime"], regimes)

@@ -20,10 +20,12 @@ balances become
 
 with K = q/(4 eps), delta_p = E_F - E_v in the neutral core, delta_n = E_c - E_F in the neutral
 shell, and V_bi0 = E_g - delta_p - delta_n (Sze & Ng, Physics of Semiconductor Devices, 3rd
-ed., 2007, sec. 2.2, eq. 2.10 in the Boltzmann limit). The interlayer terms leave the
-derivatives of the junction and coupled balances as they are without one (d/dq of the junction
-balance is K a^2 N_A ln(w/u)). Each balance is monotone in its unknown and is solved by a
-vectorised safeguarded Newton iteration (``_roots``). beta = 1 gives the p-n wire exactly.
+ed., 2007, sec. 2.2, eq. 2.10 in the Boltzmann limit; with incomplete ionisation the bulk
+levels delta_p, delta_n come from the ionised dopants, ``_ionisation``, while the depletion
+regions stay fully ionised). The interlayer terms leave the derivatives of the junction and
+coupled balances as they are without one (d/dq of the junction balance is K a^2 N_A ln(w/u)).
+Each balance is monotone in its unknown and is solved by a vectorised safeguarded Newton
+iteration (``_roots``). beta = 1 gives the p-n wire exactly.
 
 Regimes: junction and surface solved alone; if the junction's shell edge r_n lies inside the
 surface's edge r_s they do not interact (regime both-neutral, or core-depleted when the junction
@@ -43,11 +45,13 @@ from ._constants import CM2_TO_M2, CM3_TO_M3, EPS0, K_B_EV, NM, Q
 from ._design import REGIMES, DesignTable, categories, normalize_designs
 from ._materials import get_material
 from ._roots import solve_bracketed
-from ._statistics import check_statistics, reduced_level
+from ._ionisation import check_ionisation, ionisation_column, localised_share, row_dopants
+from ._statistics import check_statistics, occupancy, reduced_level
 from ._tunnel import tunnel_log10
 from ._validity import beyond_parabolic, penetration_text
 
 _TINY = 1e-300
+LEVEL_XTOL = 1e-12  #: tolerance of the reduced bulk level under incomplete ionisation [1]
 
 
 def _h(x):
@@ -84,11 +88,59 @@ def material_arrays(material, temperature_K, statistics="fermi-dirac", core_dopi
     return out
 
 
-def bulk_levels(doping_cm3, dos_cm3, kt_eV, statistics):
-    """Distance [eV] from the Fermi level to the majority band edge in neutral material of
-    full ionisation: E_c - E_F (n-type, with N_c) or E_F - E_v (p-type, with N_v).
-    Negative when degenerate. Sze & Ng, 3rd ed., eq. 1.23 (Boltzmann) and 1.16 (F_1/2)."""
-    return -kt_eV * reduced_level(doping_cm3, dos_cm3, statistics)
+def bulk_levels(doping_cm3, dos_cm3, kt_eV, statistics, level_eV=None, degeneracy=None, share=None):
+    """Distance [eV] from the Fermi level to the majority band edge in neutral material:
+    E_c - E_F (n-type, with N_c) or E_F - E_v (p-type, with N_v). Negative when degenerate.
+    Full ionisation: majority density = doping (Sze & Ng, 3rd ed., eq. 1.23 (Boltzmann) and 1.16
+    (F_1/2)). With ``level_eV`` (the dopant's ionisation energy E_i [eV]), ``degeneracy`` g [1]
+    and ``share`` s [1] (``_ionisation``): majority density = ionised dopants,
+    N_dos F(eta) = N (1 - s / (1 + exp(w))), w = eta + E_i/kT + ln g, eta the reduced level
+    (Sze & Ng, 3rd ed., eq. 1.38-1.39 with the neutrality of sec. 1.4.2, minority carriers
+    neglected as in the full case); solved for rows with s > 0 by ``solve_bracketed``."""
+    eta = reduced_level(doping_cm3, dos_cm3, statistics)
+    if share is None or not np.any(share > 0):
+        return -kt_eV * eta
+    i = np.flatnonzero(share > 0)
+    kt = np.broadcast_to(kt_eV, eta.shape)[i]
+    p = dict(L=np.log(np.asarray(doping_cm3, dtype=float)[i] / np.asarray(dos_cm3, dtype=float)[i]),
+             c=level_eV[i] / kt + np.log(degeneracy[i]), s=share[i])
+
+    def f(x, q):  # ln F(eta) - ln(ionised fraction) - ln(N/N_dos), increasing in eta
+        occ, docc = occupancy(x, statistics)
+        sig = 1.0 / (1.0 + np.exp(-np.minimum(x + q["c"], 700.0)))  # 1 / (1 + exp(-w))
+        frac = 1.0 - q["s"] * sig
+        return np.log(occ) - np.log(frac) - q["L"], docc / occ + q["s"] * sig * (1.0 - sig) / frac
+
+    # bracket: the full-ionisation level above; below, F(eta) <= e^eta and -ln(fraction) <= max(w, 0) + ln 2
+    hi = eta[i]
+    lo = np.minimum(np.minimum(0.0, 0.5 * (p["L"] - p["c"] - np.log(2.0))), p["L"] - np.log(2.0)) - 1.0
+    with np.errstate(all="ignore"):
+        root, _ = solve_bracketed(f, p, lo, hi, x0=hi, xtol=LEVEL_XTOL)
+    eta = eta.copy()
+    eta[i] = root
+    return -kt_eV * eta
+
+
+def bulk_level(doping_cm3, dos_cm3, temperature_K, statistics: str = "fermi-dirac", ionisation_eV=None,
+               degeneracy=2.0, mott_cm3=np.inf):
+    """Majority band edge to Fermi level [eV] in neutral material (E_c - E_F for a donor-doped
+    region with ``dos_cm3`` = N_c, E_F - E_v for an acceptor-doped one with N_v; negative when
+    degenerate) at doping ``doping_cm3`` [cm^-3] and ``temperature_K`` [K]. ``ionisation_eV``
+    (the dopant's dilute-limit ionisation energy [eV]; None: full ionisation), ``degeneracy``
+    g [1] and ``mott_cm3`` (Mott density [cm^-3]) give the incomplete ionisation of
+    ``_ionisation`` (Sze & Ng, 3rd ed., eq. 1.38-1.39). Minority carriers are neglected."""
+    n = np.asarray(doping_cm3, dtype=float)
+    shape = np.broadcast_shapes(n.shape, np.shape(dos_cm3), np.shape(temperature_K))
+    n = np.broadcast_to(n, shape).ravel()
+    dos = np.broadcast_to(np.asarray(dos_cm3, dtype=float), shape).ravel()
+    kt = np.broadcast_to(K_B_EV * np.asarray(temperature_K, dtype=float), shape).ravel()
+    statistics = check_statistics(statistics)
+    if ionisation_eV is None:
+        return bulk_levels(n, dos, kt, statistics).reshape(shape)
+    s = localised_share(n, np.broadcast_to(np.asarray(mott_cm3, dtype=float), shape).ravel())
+    e = np.broadcast_to(np.asarray(ionisation_eV, dtype=float), shape).ravel() * s
+    g = np.broadcast_to(np.asarray(degeneracy, dtype=float), shape).ravel()
+    return bulk_levels(n, dos, kt, statistics, e, g, s).reshape(shape)
 
 
 def solve_pcore(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl, b=None):
@@ -224,9 +276,11 @@ def outputs(s, NA, ND, a, R, Eg, dp, dn, Dit, Ecnl, eps=None, b=None):
                 peak_field_V_per_m=2.0 * K * NA * a * (1.0 - u), surface_y=surface_y)
 
 
-def prepare(table: DesignTable, statistics: str, mat=None):
-    """SI arrays of the mirrored p-core problem for every row of a validated table; ``mat``: the
-    table's ``material_arrays`` when the caller has them already."""
+def prepare(table: DesignTable, statistics: str, dopants=None, mat=None):
+    """SI arrays of the mirrored p-core problem for every row of a validated table. ``dopants``:
+    the per-row dopant data of ``_ionisation.row_dopants`` (None: full ionisation); the bulk
+    levels (so V_bi0) follow it, the depletion regions stay fully ionised. ``mat``: the table's
+    ``material_arrays`` when the caller has them already."""
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics) if mat is None else mat
     p = table.p_core
@@ -237,8 +291,12 @@ def prepare(table: DesignTable, statistics: str, mat=None):
     ok = table.ok
     safe = lambda x, fill: np.where(ok, x, fill)  # noqa: E731  keep invalid rows finite
     kt2 = np.tile(safe(kt, 0.025), 2)  # both regions in one call (one Newton loop)
+    ion = {} if dopants is None else dict(
+        level_eV=np.concatenate([dopants["core_E"], dopants["shell_E"]]),
+        degeneracy=np.concatenate([dopants["core_g"], dopants["shell_g"]]),
+        share=np.concatenate([safe(dopants["core_s"], 0.0), safe(dopants["shell_s"], 0.0)]))
     levels = bulk_levels(np.concatenate([safe(v["core_doping_cm3"], 1e17), safe(v["shell_doping_cm3"], 1e17)]),
-                         np.concatenate([safe(core_dos, 1e18), safe(shell_dos, 1e18)]), kt2, statistics)
+                         np.concatenate([safe(core_dos, 1e18), safe(shell_dos, 1e18)]), kt2, statistics, **ion)
     dp, dn = levels[:table.n], levels[table.n:]
     a = safe(v["core_radius_nm"], 50.0) * NM
     return dict(
@@ -293,11 +351,14 @@ CHUNK_ROWS = 1 << 16  #: rows per work unit: keeps temporaries in cache
 THREADS = min(os.cpu_count() or 1, 8)  #: worker threads for large batches (numpy frees the GIL)
 
 
-def deplete_table(table: DesignTable, statistics: str, validity: bool = True) -> dict:
+def deplete_table(table: DesignTable, statistics: str, ionisation: str = "full", validity: bool = True) -> dict:
     """``deplete`` on a validated table. ``validity=False`` leaves out the limits of ``_validity``
     (the surrogate's features keep their definition, ``FEATURES_VERSION``)."""
+    incomplete, refused, dopants = row_dopants(table, ionisation)
+    if refused is not None:
+        table = DesignTable(table.n, table.material, table.p_core, table.values, refused)
     mat = material_arrays(table.material, table.values["temperature_K"], statistics)
-    prob, cnl = prepare(table, statistics, mat)
+    prob, cnl = prepare(table, statistics, dopants if incomplete.any() else None, mat=mat)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
         out = outputs(sol, **prob)
@@ -323,10 +384,12 @@ def deplete_table(table: DesignTable, statistics: str, validity: bool = True) ->
         "junction_edge_nm": np.where(good, out["junction_edge_m"] / NM, nan),
         "peak_field_V_per_cm": np.where(good, out["peak_field_V_per_m"] / 100.0, nan),
         "tunnel_log10": np.where(good, tunnel, nan),
+        "ionisation": ionisation_column(DesignTable(table.n, table.material, table.p_core, table.values, status),
+                                        incomplete),
     }
 
 
-def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None) -> dict:
+def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None, ionisation: str = "auto") -> dict:
     """Regime and built-in potential of each design by the depletion approximation.
 
     ``designs``: mapping of design-table column -> array or scalar, a list of row dicts, or a
@@ -343,13 +406,17 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     junction's peak field [V/cm], at the core's edge) and ``tunnel_log10`` (Kane's WKB estimate
     at that field [1], ``_tunnel``). ``interlayer_nm`` > 0 gives the p-i-n wire (module
     docstring). Rows beyond the parabolic-band limit of ``_validity`` get the solver's status.
+    ``ionisation``: ``"auto"``,
+    ``"full"`` or ``"incomplete"`` for the bulk levels (``_ionisation``; docs/physics.md section
+    4.1); the column ``ionisation`` says which model each row used.
     """
     statistics = check_statistics(statistics)
+    ionisation = check_ionisation(ionisation)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     if table.n <= CHUNK_ROWS:
-        return deplete_table(table, statistics)
+        return deplete_table(table, statistics, ionisation)
     parts = [slice(i, min(i + CHUNK_ROWS, table.n)) for i in range(0, table.n, CHUNK_ROWS)]
-    work = lambda sl: deplete_table(table.take(sl), statistics)  # noqa: E731
+    work = lambda sl: deplete_table(table.take(sl), statistics, ionisation)  # noqa: E731
     nthreads = THREADS if threads is None else max(1, int(threads))
     if nthreads > 1:
         with ThreadPoolExecutor(nthreads) as pool:

@@ -15,6 +15,7 @@ from ._design import DesignTable, normalize_designs
 from ._errors import DesignError
 from ._model import empty_result, predict_bundles
 from ._single import one_design
+from ._ionisation import AUTO_BELOW_K, DEEP_EV, check_ionisation, row_dopants
 from ._statistics import check_statistics
 
 ENGINES = ("auto", "surrogate", "depletion", "solver")
@@ -23,7 +24,8 @@ DEFAULT_ENGINE = "auto"
 RATE = {"solver": 3000, "surrogate": 20_000, "auto": 20_000, "surrogate+gp": 10_000, "depletion": 1_000_000}
 
 
-def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_jobs: int = 1) -> dict:
+def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_jobs: int = 1,
+          ionisation: str = "auto") -> dict:
     """Regime and built-in potential of each design by the reference solver: the full nonlinear
     Poisson equation in the cylinder with Fermi-Dirac (or Boltzmann) statistics and surface
     states. Numpy only; about 3,000 designs/s on 2 cores.
@@ -31,21 +33,42 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_
     ``designs``: as for ``deplete``. ``nodes``: grid nodes per design (default 400, V_bi
     within 0.1 mV of a 4x finer grid). ``n_jobs``: worker threads (-1: one per core). Returns
     the design-table output columns plus the solver's margins (``core_majority_ln``,
-    ``shell_majority_ln``), ``charge_residual``, ``iterations`` and ``solver_version``; see
-    docs/physics.md for the equations and the regime criterion.
+    ``shell_majority_ln``), ``charge_residual``, ``iterations``, ``solver_version`` and
+    ``ionisation`` (the model each row used: ``"auto"``, ``"full"`` or ``"incomplete"``
+    chosen by ``ionisation``); see docs/physics.md for the equations and the regime criterion.
     """
     from .training._solver import NODES, solve as _solve  # the solver's code lives in training/
 
-    return _solve(designs, statistics, nodes=NODES if nodes is None else int(nodes), n_jobs=n_jobs)
+    return _solve(designs, statistics, nodes=NODES if nodes is None else int(nodes), n_jobs=n_jobs,
+                  ionisation=ionisation)
 
 
-def _surrogate(table, statistics, second_opinion=False, models=None):
-    if statistics == "fermi-dirac":
-        return predict_bundles(table, second_opinion=second_opinion, models=models)
-    res = empty_result(table.n, second_opinion, table.status)
-    msg = (f"surrogate: bundles are trained with fermi-dirac statistics, not {statistics}; the solver engine "
-           "(or auto) answers it")
-    res["status"] = np.where(table.status == "ok", msg, table.status).astype(object)
+BUNDLE_IONISATION = "full"  #: the ionisation model every shipped bundle's training set was solved with
+
+
+def _surrogate(table, statistics, second_opinion=False, ionisation="auto", models=None):
+    """Bundles' answers where the row's statistics and resolved ionisation model are those the
+    bundles were trained on; a status saying why for the other valid rows."""
+    if statistics != "fermi-dirac":
+        res = empty_result(table.n, second_opinion, table.status)
+        msg = (f"surrogate: bundles are trained with fermi-dirac statistics, not {statistics}; the solver engine "
+               "(or auto) answers it")
+        res["status"] = np.where(table.status == "ok", msg, table.status).astype(object)
+        return res
+    incomplete, refused, _ = row_dopants(table, ionisation)
+    if refused is not None:  # "incomplete" for a material without dopant levels
+        table = DesignTable(table.n, table.material, table.p_core, table.values, refused)
+    res = predict_bundles(table, second_opinion=second_opinion, models=models)
+    differs = incomplete & (res["status"] == "ok")  # a bundle would answer, on the wrong model
+    if differs.any():
+        for k, v in res.items():
+            if k in ("status", "engine"):
+                continue
+            v[differs] = np.nan if v.dtype.kind == "f" else (False if v.dtype.kind == "b" else "")
+        res["status"][differs] = ("surrogate: the bundle is trained with full ionisation; this design resolves to "
+                                  f"incomplete ionisation (ionisation {ionisation!r}: below {AUTO_BELOW_K:g} K or a "
+                                  f"dopant {DEEP_EV:g} eV deep or deeper turns it on)")
+    res["ionisation"] = np.where(res["status"] == "ok", BUNDLE_IONISATION, "").astype(object)
     return res
 
 
@@ -78,10 +101,10 @@ def _merge(n, parts) -> dict:
     return out
 
 
-def _auto(table, statistics, second_opinion, confirm, n_jobs, models=None):
+def _auto(table, statistics, second_opinion, confirm, n_jobs, ionisation="auto", models=None):
     """Surrogate where it may answer; the solver for valid rows it refuses (and, with
     ``confirm``, for rows it flags as uncertain). ``engine_note`` says why the solver answered."""
-    res = _surrogate(table, statistics, second_opinion, None if confirm else models)
+    res = _surrogate(table, statistics, second_opinion, ionisation, None if confirm else models)
     note = np.full(table.n, "", dtype=object)
     valid = table.status == "ok"
     refused = valid & (res["status"] != "ok")
@@ -94,7 +117,8 @@ def _auto(table, statistics, second_opinion, confirm, n_jobs, models=None):
     if not rows.size:
         return {**res, "engine_note": note}
     sub = table.take(rows)
-    ref = solve(sub, statistics, n_jobs=n_jobs if n_jobs is not None else (-1 if rows.size > 2000 else 1))
+    ref = solve(sub, statistics, n_jobs=n_jobs if n_jobs is not None else (-1 if rows.size > 2000 else 1),
+                ionisation=ionisation)
     keep = np.flatnonzero(~refused)
     out = _merge(table.n, [(keep, {k: v[keep] for k, v in res.items()}), (rows, ref)])
     out["in_domain"][rows] = res["in_domain"][rows]
@@ -103,29 +127,33 @@ def _auto(table, statistics, second_opinion, confirm, n_jobs, models=None):
 
 
 def answer(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", second_opinion: bool = False,
-           progress=None, n_jobs: int | None = None, confirm: bool = False, models=None) -> dict:
+           progress=None, n_jobs: int | None = None, confirm: bool = False, ionisation: str = "auto",
+           models=None) -> dict:
     """Output columns of ``engine`` for ``designs`` (any form ``normalize_designs`` takes).
 
     ``progress(done, total)``, if given, is called after each chunk on runs expected to take
     more than about a second. ``second_opinion`` adds the surrogate's Gaussian-process columns.
     ``n_jobs``: solver threads (default: one per core above 2,000 rows). ``confirm`` (auto
-    engine): rows the surrogate flags as uncertain are re-answered by the solver. ``models``: the
-    surrogate's tree models a question needs (``SurrogateModel.predict``); other engines ignore it."""
+    engine): rows the surrogate flags as uncertain are re-answered by the solver. ``ionisation``:
+    ``"auto"``, ``"full"`` or ``"incomplete"`` (``_ionisation``). ``models``: the surrogate's tree
+    models a question needs (``SurrogateModel.predict``); other engines ignore it."""
     check_engine(engine)
     statistics = check_statistics(statistics)
+    ionisation = check_ionisation(ionisation)
     table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
 
     def run(part):
         if engine == "auto":
-            return _auto(part, statistics, second_opinion, confirm, n_jobs, models)
+            return _auto(part, statistics, second_opinion, confirm, n_jobs, ionisation, models)
         if engine == "surrogate":
-            res = _surrogate(part, statistics, second_opinion, models)
+            res = _surrogate(part, statistics, second_opinion, ionisation, models)
             refused = (part.status == "ok") & (res["status"] != "ok")
             res["status"][refused] = [f"{s}; engine 'auto' or 'solver' answers it" for s in res["status"][refused]]
             return res
         if engine == "depletion":
-            return deplete(part, statistics)
-        return solve(part, statistics, n_jobs=n_jobs if n_jobs is not None else (-1 if part.n > 2000 else 1))
+            return deplete(part, statistics, ionisation=ionisation)
+        return solve(part, statistics, n_jobs=n_jobs if n_jobs is not None else (-1 if part.n > 2000 else 1),
+                     ionisation=ionisation)
 
     rate = RATE["surrogate+gp" if engine == "surrogate" and second_opinion else engine]
     if progress is None or table.n <= rate:

@@ -35,7 +35,8 @@ def _tunnel_free(out, bound):
         return (out["status"] == "ok") & (np.asarray(out.get("tunnel_log10", np.nan)) <= TUNNEL_RISK_LOG10)
 
 
-def critical_interlayer(predict, base: dict, target: dict, goal: str, engine: str, statistics: str) -> dict:
+def critical_interlayer(predict, base: dict, target: dict, goal: str, engine: str, statistics: str,
+                        ionisation: str = "auto") -> dict:
     """The interlayer item of ``critical_dimensions``: ``value_nm`` (the thickest interlayer
     [nm] up to which V_bi keeps the target; NaN with a ``reason`` when even none does),
     ``optimistic_nm``/``conservative_nm``, ``regime``, ``monotone``, ``engine`` (which engine
@@ -64,7 +65,7 @@ def critical_interlayer(predict, base: dict, target: dict, goal: str, engine: st
     elif r["value"] >= hi:
         item["reason"] = (f"every interlayer up to {_nm(hi)} nm (all but {SHELL_LEFT_NM:g} nm of the shell) keeps "
                           f"{_short_goal(goal)}")
-    judge = lambda d: answer(d, item["tunnel_engine"], statistics)  # noqa: E731
+    judge = lambda d: answer(d, item["tunnel_engine"], statistics, ionisation=ionisation)  # noqa: E731
     t = _search.critical(judge, base, "interlayer_nm", lo, hi, points=INTERLAYER_POINTS, accept=_tunnel_free,
                          intervals=False)
     item["tunnel_free_nm"] = t["value"]

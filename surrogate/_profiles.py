@@ -11,6 +11,7 @@ from ._constants import NM
 from ._depletion import deplete_table, prepare, solve_pcore
 from ._design import check_design
 from ._errors import RadialpnError
+from ._ionisation import check_ionisation, row_dopants
 from ._statistics import check_statistics
 
 _TINY = 1e-300
@@ -59,7 +60,7 @@ def fermi_minus_ev(prob: dict, sol: dict, r):
     return offset + psi
 
 
-def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int = 400) -> dict:
+def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int = 400, ionisation: str = "auto") -> dict:
     """Band edges of one design by the depletion approximation.
 
     Returns ``r_nm`` [nm], ``ec_eV`` and ``ev_eV`` [eV, relative to E_F = 0], ``region`` (a
@@ -67,15 +68,18 @@ def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int
     ``core_neutral_radius_nm``, ``junction_edge_nm`` (where the junction's depletion of the
     shell ends, or the shell's potential extremum when the shell is fully depleted),
     ``surface_edge_nm`` (inner edge of the surface depletion), ``core_radius_nm``,
-    ``outer_radius_nm`` [nm], with ``regime`` and ``vbi_V``. Raises ``DesignError`` on bad
+    ``outer_radius_nm`` [nm], with ``regime``, ``vbi_V`` and ``ionisation`` (the bulk levels'
+    model, ``_ionisation``). Raises ``DesignError`` on bad
     input and ``RadialpnError`` if the design has no depletion-model answer.
     """
     statistics = check_statistics(statistics)
+    ionisation = check_ionisation(ionisation)
     table = check_design(design)
-    res = deplete_table(table, statistics)
+    res = deplete_table(table, statistics, ionisation)
     if res["status"][0] != "ok":
         raise RadialpnError(str(res["status"][0]))
-    prob, _ = prepare(table, statistics)
+    incomplete, _, dopants = row_dopants(table, ionisation)
+    prob, _ = prepare(table, statistics, dopants if incomplete.any() else None)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
     a, R = float(prob["a"][0]), float(prob["R"][0])
@@ -99,4 +103,5 @@ def depletion_profile(design: dict, statistics: str = "fermi-dirac", points: int
         "core_neutral_radius_nm": a * np.sqrt(float(sol["u"][0])) / NM, "core_radius_nm": a / NM,
         "outer_radius_nm": R / NM, "junction_edge_nm": min(r0, R) / NM,
         "surface_edge_nm": (R * np.sqrt(float(sol["v"][0])) if not coupled else min(r0, R)) / NM,
+        "ionisation": str(res["ionisation"][0]),
     }

@@ -34,7 +34,7 @@ SIZABLE = ("core_radius_nm", "shell_thickness_nm", "interlayer_nm")  #: what ``c
 SIZED = SIZABLE[:2]  #: sized by default
 
 
-def profile(design: dict, engine: str = "solver", statistics: str = "fermi-dirac") -> dict:
+def profile(design: dict, engine: str = "solver", statistics: str = "fermi-dirac", ionisation: str = "auto") -> dict:
     """Band profile of one design against radius: ``r_nm`` [nm], ``ec_eV``, ``ev_eV`` [eV,
     E_F = 0], ``region`` (core-neutral, core-depleted, interlayer, shell-neutral,
     shell-depleted) and, from the solver, ``n_cm3``, ``p_cm3`` [cm^-3]; plus ``regime``,
@@ -43,16 +43,16 @@ def profile(design: dict, engine: str = "solver", statistics: str = "fermi-dirac
     if engine == "depletion":
         from ._profiles import depletion_profile
 
-        return depletion_profile(design, statistics, points=800)
+        return depletion_profile(design, statistics, points=800, ionisation=ionisation)
     if engine != "solver":
         raise DesignError("engine", "one of solver, depletion", engine)
     from .training._profile import solver_profile
 
-    return solver_profile(design, statistics)
+    return solver_profile(design, statistics, ionisation=ionisation)
 
 
 def regime_map(design: dict, x, y, cells=(32, 16), engine: str = DEFAULT_ENGINE,
-               statistics: str = "fermi-dirac", progress=None) -> dict:
+               statistics: str = "fermi-dirac", progress=None, ionisation: str = "auto") -> dict:
     """Regime and V_bi over two design variables, the rest of ``design`` fixed.
 
     ``x``, ``y``: ``(column, low, high)`` in the column's unit (unit suffixes accepted), with an
@@ -77,7 +77,7 @@ def regime_map(design: dict, x, y, cells=(32, 16), engine: str = DEFAULT_ENGINE,
     base = {k: v for k, v in design_row({**base, xcol: xlo, ycol: ylo}).items() if k not in (xcol, ycol)}
     xs, ys = _points(xlo, xhi, nx, xlog), _points(ylo, yhi, ny, ylog)
     designs = _search.grid(base, xcol, xs, ycol, ys)
-    res = answer(designs, engine, statistics, progress=progress)
+    res = answer(designs, engine, statistics, progress=progress, ionisation=ionisation)
     mark = None
     if xcol in design and ycol in design:
         bx, by = parse_quantity(xcol, design[xcol]), parse_quantity(ycol, design[ycol])
@@ -145,7 +145,7 @@ def _why_none(col, base, scan, predict, target, goal):
 def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_V: float | None = None,
                         engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", confirm: bool = True,
                         ranges: dict | None = None, sweep=None, points: int = 9, progress=None,
-                        sized=SIZED) -> dict:
+                        sized=SIZED, ionisation: str = "auto") -> dict:
     """Smallest core radius [nm] (shell fixed) and thinnest shell [nm] (core fixed) from which
     on V_bi stays at or above the target; with ``"interlayer_nm"`` in ``sized`` also the
     thickest undoped interlayer that keeps it and the thinnest that takes the junction out of
@@ -174,7 +174,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
     goal = target_text(fraction_min, vbi_min_V)
     base = design_row({"core_radius_nm": 100.0, "shell_thickness_nm": 100.0, **design})
     scan = _scan_ranges(base, engine, ranges)
-    predict = lambda d: answer(d, engine, statistics)  # noqa: E731
+    predict = lambda d: answer(d, engine, statistics, ionisation=ionisation)  # noqa: E731
     if sweep is not None:
         col, lo, hi, log = _axis("sweep", sweep)
         if col in scan:
@@ -209,7 +209,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
             checks.append(col)
         out[col] = item
     if "interlayer_nm" in sized:
-        item = out["interlayer_nm"] = critical_interlayer(predict, base, target, goal, engine, statistics)
+        item = out["interlayer_nm"] = critical_interlayer(predict, base, target, goal, engine, statistics, ionisation)
         if math.isfinite(item["value_nm"]) and not item["reason"]:
             checks.append("interlayer_nm")
     sign = {"core_radius_nm": 1.0, "shell_thickness_nm": 1.0, "interlayer_nm": -1.0}  # the side that meets
@@ -221,7 +221,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
     if confirm and checks:
         rows = [{**base, c: probe(c, dx)} for c in checks for dx in (CONFIRM_STEP_NM, -CONFIRM_STEP_NM)]
         t = time.perf_counter()
-        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics)
+        ref = solve({k: [r[k] for r in rows] for k in rows[0]}, statistics, ionisation=ionisation)
         out["solver_seconds"] = time.perf_counter() - t
         ok = _search.meets(ref, **target)
         for k, c in enumerate(checks):

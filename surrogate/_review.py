@@ -33,7 +33,7 @@ def _around(value, lo, hi):
 
 def review(design: dict, spreads: dict | None = None, samples: int = REVIEW_SAMPLES, cells=REVIEW_CELLS,
            fraction_min: float | None = 0.9, vbi_min_V: float | None = None, engine: str = DEFAULT_ENGINE,
-           statistics: str = "fermi-dirac", seed: int = 0, confirm: bool = True) -> dict:
+           statistics: str = "fermi-dirac", seed: int = 0, confirm: bool = True, ionisation: str = "auto") -> dict:
     """Everything a design review shows about one wire. Returns ``design`` (validated values),
     ``answer`` (the engine's row, with the surrogate's second opinion), ``check`` (the reference
     solver on the same design: ``regime``, ``vbi_V`` [V], ``status``, ``seconds`` [s],
@@ -51,11 +51,12 @@ def review(design: dict, spreads: dict | None = None, samples: int = REVIEW_SAMP
             raise _questions.DesignError(col, "a review needs the whole design (core radius and shell thickness)")
     seconds = {}
     t = time.perf_counter()
-    row = answer({k: [v] for k, v in base.items()}, engine, statistics, second_opinion=engine == "surrogate")
+    row = answer({k: [v] for k, v in base.items()}, engine, statistics, second_opinion=engine == "surrogate",
+                 ionisation=ionisation)
     ans = {k: _scalar(v) for k, v in row.items()}
     seconds["answer"] = time.perf_counter() - t
     t = time.perf_counter()
-    ref = solve({k: [v] for k, v in base.items()}, statistics)
+    ref = solve({k: [v] for k, v in base.items()}, statistics, ionisation=ionisation)
     seconds["check"] = time.perf_counter() - t
     chk = {"regime": str(ref["regime"][0]), "vbi_V": float(ref["vbi_V"][0]), "status": str(ref["status"][0]),
            "seconds": seconds["check"]}
@@ -65,9 +66,9 @@ def review(design: dict, spreads: dict | None = None, samples: int = REVIEW_SAMP
     chk["inside_interval"] = (bool(ans["vbi_low_V"] <= chk["vbi_V"] <= ans["vbi_high_V"])
                               if both and "vbi_low_V" in ans else None)
     t = time.perf_counter()
-    prof = _questions.profile(base, "solver", statistics)
+    prof = _questions.profile(base, "solver", statistics, ionisation)
     try:
-        prof_da = _questions.profile(base, "depletion", statistics)
+        prof_da = _questions.profile(base, "depletion", statistics, ionisation)
     except RadialpnError:  # e.g. a surface that accumulates: the approximation has no bands to draw
         prof_da = None
     seconds["profile"] = time.perf_counter() - t
@@ -75,19 +76,20 @@ def review(design: dict, spreads: dict | None = None, samples: int = REVIEW_SAMP
     scan = _questions._scan_ranges(base, engine, None)
     x = ("core_radius_nm", *_around(base["core_radius_nm"], *scan["core_radius_nm"]))
     y = ("shell_thickness_nm", *_around(base["shell_thickness_nm"], *scan["shell_thickness_nm"]))
-    grid = _questions.regime_map(base, x, y, cells, engine, statistics)
+    grid = _questions.regime_map(base, x, y, cells, engine, statistics, ionisation=ionisation)
     seconds["map"] = time.perf_counter() - t
     t = time.perf_counter()
-    crit = _questions.critical_dimensions(base, fraction_min, vbi_min_V, engine, statistics, confirm=confirm)
+    crit = _questions.critical_dimensions(base, fraction_min, vbi_min_V, engine, statistics, confirm=confirm,
+                                          ionisation=ionisation)
     seconds["critical"] = time.perf_counter() - t
     t = time.perf_counter()
     spr = _questions.spread(base, spreads or DEFAULT_SPREADS, samples, seed, fraction_min, vbi_min_V, engine=engine,
-                            statistics=statistics)
+                            statistics=statistics, ionisation=ionisation)
     seconds["spread"] = time.perf_counter() - t
     v0 = ans["vbi0_V"] if ans["status"] == "ok" else math.nan
     goal = max(fraction_min * v0 if fraction_min is not None else -math.inf,
                vbi_min_V if vbi_min_V is not None else -math.inf)
     return {"design": base, "answer": ans, "target_vbi_V": goal, "check": chk, "profile": prof, "profile_depletion": prof_da, "map": grid,
             "critical": crit, "spread": spr, "spreads_given": spreads is not None, "tunnelling": None,
-            "seconds": seconds, "engine": engine, "statistics": statistics,
+            "seconds": seconds, "engine": engine, "statistics": statistics, "ionisation": ionisation,
             "target": _questions.target_text(fraction_min, vbi_min_V)}

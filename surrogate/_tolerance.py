@@ -50,7 +50,7 @@ def parse_spread(column: str, text) -> tuple:
 
 def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, fraction_min: float | None = 0.9,
            vbi_min_V: float | None = None, regimes=None, engine: str = DEFAULT_ENGINE,
-           statistics: str = "fermi-dirac", progress=None) -> dict:
+           statistics: str = "fermi-dirac", progress=None, ionisation: str = "auto") -> dict:
     """Growth tolerance: Monte Carlo runs around the nominal ``design`` under run-to-run spread.
 
     ``spreads``: column -> ``"2nm"`` (one standard deviation), ``"25%"`` (relative, in log for
@@ -83,7 +83,7 @@ def spread(design: dict, spreads: dict, samples: int = 100_000, seed: int = 0, f
         raise DesignError(missing[0], "a spread needs the nominal value in the design")
     t0 = time.perf_counter()
     samples_ = _search.spread_samples(nominal, parsed, n, seed)
-    res = answer(samples_, engine, statistics, progress=progress, models=SPREAD_MODELS)
+    res = answer(samples_, engine, statistics, progress=progress, models=SPREAD_MODELS, ionisation=ionisation)
     seconds = time.perf_counter() - t0
     ok = res["status"] == "ok"
     success = _search.meets(res, **target)

@@ -35,16 +35,29 @@ def fermi_half(eta):
     return np.where(eta < -40, np.exp(np.maximum(eta, -700.0)), np.exp(_FD(np.clip(eta, -40, 80))))
 
 
-def solve(NA, ND, a, t, eps_r, Eg, Nc, Nv, T, Dit, Ecnl, y_guess, statistics="boltzmann"):
+def ionised_acceptors(N, y, level, g, share, kt):
+    """N_A- [cm^-3] at E_F - E_v = y [eV]: N (1 - s + s / (1 + g exp((E_A - E_F)/kT))), the
+    acceptor occupancy of Sze & Ng, 3rd ed., eq. 1.39 for the localised share s, the rest ionised."""
+    with np.errstate(over="ignore"):
+        return N * (1.0 - share + share / (1.0 + g * np.exp(np.minimum((level - y) / kt, 700.0))))
+
+
+def solve(NA, ND, a, t, eps_r, Eg, Nc, Nv, T, Dit, Ecnl, y_guess, statistics="boltzmann", core_dopant=None,
+          shell_dopant=None):
     """Dopings and N_c, N_v in cm^-3, a and t in nm, D_it in cm^-2 eV^-1. ``y_guess(r_nm)``:
-    a start for y = E_F - E_v. ``statistics``: "boltzmann" or "fermi-dirac". Returns
-    (V_bi, fine r, fine y)."""
+    a start for y = E_F - E_v. ``statistics``: "boltzmann" or "fermi-dirac". ``core_dopant``,
+    ``shell_dopant``: None (fully ionised) or (E_i [eV] from the region's majority band, g,
+    localised share s) for incomplete ionisation. Returns (V_bi, fine r, fine y)."""
     kt = KB * T
     R = a + t
     k = Q * 1e6 * 1e-18 / (eps_r * EPS0)  # q N[cm^-3] / eps, per nm^2, in V
     occ = np.exp if statistics == "boltzmann" else fermi_half
 
-    def rho(y, dop):  # (p - n + dop) in cm^-3
+    def rho(y, dop):  # (p - n + ionised dopants) in cm^-3; dop < 0: core acceptors, > 0: shell donors
+        if dop < 0 and core_dopant is not None:
+            dop = -ionised_acceptors(-dop, y, *core_dopant, kt)
+        elif dop > 0 and shell_dopant is not None:  # donor level E_g - E_i above E_v: the mirror of an acceptor
+            dop = ionised_acceptors(dop, Eg - y, *shell_dopant, kt)
         return Nv * occ(-y / kt) - Nc * occ((y - Eg) / kt) + dop
 
     s0 = 1e-7

@@ -112,8 +112,13 @@ def test_agrees_with_depletion_engine_at_high_doping():
 
 def test_n_core_equals_mirrored_p_core():
     # docs/physics.md section 1: swap N_c and N_v and measure the neutral level from the other band.
+    # The dopant levels swap too (the mirror's acceptor is GaAs's donor), so the rows below 200 K,
+    # where "auto" turns incomplete ionisation on, are mirrored exactly as well.
+    don, acc = GAAS.dopant("donor"), GAAS.dopant("acceptor")
     mirror = Material("GaAs-mirror-solver", GAAS.band_gap_300_eV, GAAS.varshni_alpha_eV_K, GAAS.varshni_beta_K,
-                      GAAS.permittivity_rel, GAAS.nv_300_cm3, GAAS.nc_300_cm3, 0.0)
+                      GAAS.permittivity_rel, GAAS.nv_300_cm3, GAAS.nc_300_cm3, 0.0, donor_ionisation_eV=acc[0],
+                      acceptor_ionisation_eV=don[0], donor_degeneracy=acc[1], acceptor_degeneracy=don[1],
+                      donor_mott_cm3=acc[2], acceptor_mott_cm3=don[2])
     radialpn.register_material(mirror)
     d = _random_designs(60, 9)
     d.pop("material")

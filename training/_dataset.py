@@ -34,7 +34,7 @@ from ._solver import SOLVER_VERSION, solve
 from ._spec import DomainSpec
 
 SPLITS = ("train", "calibration", "test")
-EXTRA = ("core_majority_ln", "shell_majority_ln", "charge_residual", "iterations", "solver_version")
+EXTRA = ("core_majority_ln", "shell_majority_ln", "charge_residual", "iterations", "solver_version", "ionisation")
 COLUMNS = ("row_id", "split", "round") + INPUT_COLUMNS + OUTPUT_COLUMNS + EXTRA
 
 
@@ -69,8 +69,10 @@ def _fmt(x) -> str:
 
 
 def solve_shard(designs: dict, statistics: str) -> dict:
-    """Worker task: solve one shard (single process, no nested parallelism)."""
-    return solve(designs, statistics, n_jobs=1)
+    """Worker task: solve one shard (single process, no nested parallelism). Full ionisation:
+    the surrogates are trained on it (their features come from the fully ionised depletion
+    engine, and ``_engines`` refuses them rows whose resolved model is incomplete)."""
+    return solve(designs, statistics, n_jobs=1, ionisation="full")
 
 
 def _write_shard(path: Path, split: str, rnd: int, first: int, designs: dict, out: dict) -> None:

@@ -6,13 +6,16 @@ constant. Poisson in a cylinder (docs/physics.md section 8):
 
     (1/r) d/dr (eps r dy/dr) = -q (p - n + N_net),   p = N_v F(-y/kT),  n = N_c F((y - E_g)/kT)
 
-with F = F_1/2 (Fermi-Dirac) or exp (Boltzmann), full ionisation, dy/dr = 0 on the axis and
+with F = F_1/2 (Fermi-Dirac) or exp (Boltzmann), dy/dr = 0 on the axis and
 eps dy/dr = sigma_s = -q D_it (y(R) - E_cnl) at the surface (Gauss's law, wire neutral as a
 whole; Sze & Ng, Physics of Semiconductor Devices, 3rd ed., sec. 8.2 for the surface-state
 charge). Discretisation: vertex-centred finite volumes with faces at the midpoints and face
 areas proportional to r (so charge is conserved exactly; S. Selberherr, Analysis and Simulation
 of Semiconductor Devices, Springer 1984, sec. 6.1), dopant charge integrated exactly over each
-control volume. Newton's method with the tridiagonal Jacobian, each node's update limited to
+control volume. Incomplete ionisation (``_ionisation``, docs/physics.md section 4.1): where ``p``
+holds the dopant levels (core_E, core_g, core_s, shell_E, shell_g, shell_s), N_A and N_D are
+scaled by the ionised fraction at each node's y (acceptor core: x = (y - E_i)/kT; donor shell:
+x = (E_g - E_i - y)/kT), its y-derivative entering the Jacobian's diagonal. Newton's method with the tridiagonal Jacobian, each node's update limited to
 ``STEP_LIMIT_KT`` kT; converged designs leave the working set.
 """
 
@@ -21,6 +24,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._constants import Q
+from .._ionisation import unionised
 from .._statistics import occupancy
 
 from ._tridiag import solve_tridiagonal
@@ -52,20 +56,46 @@ def carriers(y, p, statistics):
     return p["Nv"] * fp, -p["Nv"] * dfp / kt, p["Nc"] * fn, p["Nc"] * dfn / kt
 
 
+def dopant_charge(y, p):
+    """Ionised dopant charge per node over q [m^-2 per radian], N_D+ shell - N_A- core areas,
+    and its derivative in y [m^-2/eV]; full ionisation (derivative 0) unless ``p`` holds the
+    dopant levels."""
+    fixed = p["ND"] * p["shell"] - p["NA"] * p["core"]
+    if "core_s" not in p:
+        return fixed, 0.0
+    kt = p["kT"]
+    uc, duc = unionised((y - p["core_E"]) / kt, p["core_g"], p["core_s"])  # acceptor core (frame)
+    us, dus = unionised((p["Eg"] - p["shell_E"] - y) / kt, p["shell_g"], p["shell_s"])  # donor shell
+    charge = p["ND"] * p["shell"] * (1.0 - us) - p["NA"] * p["core"] * (1.0 - uc)
+    return charge, (p["ND"] * p["shell"] * dus + p["NA"] * p["core"] * duc) / kt
+
+
+def ionised(y, p):
+    """Ionised acceptors (core) and donors (shell) [m^-3] at the nodes of y: N_A, N_D themselves
+    under full ionisation, else scaled by the ionised fraction at each node's y."""
+    if "core_s" not in p:
+        return p["NA"], p["ND"]
+    kt = p["kT"]
+    uc, _ = unionised((y - p["core_E"]) / kt, p["core_g"], p["core_s"])
+    us, _ = unionised((p["Eg"] - p["shell_E"] - y) / kt, p["shell_g"], p["shell_s"])
+    return p["NA"] * (1.0 - uc), p["ND"] * (1.0 - us)
+
+
 def residual(y, p, statistics, jacobian=True):
     """Finite-volume residual G [C/m per radian] of every node and, optionally, the
     tridiagonal Jacobian (lower, diag, upper)."""
     eps, face = p["eps"], p["face"]
     hole, dhole, elec, delec = carriers(y, p, statistics)
     flux = eps * face * np.diff(y, axis=0)  # eps r dy/dr at each face
-    G = Q * (p["vol"] * (hole - elec) + p["ND"] * p["shell"] - p["NA"] * p["core"])
+    dop, ddop = dopant_charge(y, p)
+    G = Q * (p["vol"] * (hole - elec) + dop)
     G[:-1] += flux
     G[1:] -= flux
     G[-1] += p["R"] * (-Q * p["Dit"] * (y[-1] - p["Ecnl"]))
     if not jacobian:
         return G
     c = eps * face
-    diag = Q * p["vol"] * (dhole - delec)
+    diag = Q * (p["vol"] * (dhole - delec) + ddop)
     diag[:-1] -= c
     diag[1:] -= c
     diag[-1] -= p["R"] * Q * p["Dit"]

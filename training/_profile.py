@@ -7,22 +7,26 @@ import numpy as np
 from .._constants import NM
 from .._design import REGIMES, check_design
 from .._errors import RadialpnError
+from .._ionisation import check_ionisation
 from .._statistics import check_statistics
 
 from ._solver import NODES, _chunk, _physics
 
 
-def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = NODES) -> dict:
+def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = NODES, ionisation: str = "auto") -> dict:
     """Solved band edges of one design.
 
     Returns ``r_nm`` [nm], ``ec_eV``, ``ev_eV`` [eV, E_F = 0], ``n_cm3``, ``p_cm3`` [cm^-3] on the
     solver's grid, with ``regime``, ``vbi_V``, ``core_radius_nm``, ``interlayer_end_nm``,
-    ``outer_radius_nm`` and the neutral extents. Raises ``DesignError`` on bad input and
+    ``outer_radius_nm``, the neutral extents and ``ionisation`` (the model used). Raises ``DesignError`` on bad input and
     ``RadialpnError`` if the solver does not converge.
     """
     statistics = check_statistics(statistics)
+    ionisation = check_ionisation(ionisation)
     table = check_design(design)
-    ph = _physics(table, statistics)
+    ph = _physics(table, statistics, ionisation)
+    if ph["table"].status[0] != "ok":
+        raise RadialpnError(str(ph["table"].status[0]))
     res = _chunk(ph, np.array([0]), statistics, nodes, profiles=True)
     if not res["converged"][0]:
         raise RadialpnError(f"solver: no convergence in {res['iterations'][0]} Newton steps")
@@ -34,7 +38,9 @@ def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = N
         hole, elec = elec, hole
     a = float(ph["prob"]["a"][0])
     b = float(ph["b"][0])
-    na, nd = float(ph["prob"]["NA"][0]), float(ph["prob"]["ND"][0])  # mirrored frame: core p, shell n
+    # mirrored frame: core p, shell n; the regime criterion's reference density (the solver's)
+    na = float(res.get("NA_ref", ph["prob"]["NA"])[0])
+    nd = float(res.get("ND_ref", ph["prob"]["ND"])[0])
     maj_core = res["hole"][:, 0] >= 0.5 * na
     maj_shell = res["elec"][:, 0] >= 0.5 * nd
     region = np.where(r <= a, np.where(maj_core, "core-neutral", "core-depleted"),
@@ -47,4 +53,5 @@ def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = N
         "interlayer_end_nm": float(ph["b"][0]) / NM, "outer_radius_nm": float(ph["prob"]["R"][0]) / NM,
         "core_neutral_radius_nm": float(res["core_neutral_radius_m"][0]) / NM,
         "shell_neutral_nm": float(res["shell_neutral_m"][0]) / NM, "iterations": int(res["iterations"][0]),
+        "ionisation": "incomplete" if ph["incomplete"][0] else "full",
     }

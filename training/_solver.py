@@ -3,7 +3,8 @@ Poisson solution (``_poisson``), batched and optionally spread over threads; num
 
 Regime criterion (documented in README, DEVELOPERS.md and docs/physics.md section 8.5): a region
 keeps a neutral part when its majority-carrier density reaches at least half its doping
-somewhere in it (for a degenerate region this is reached with the bands still short of their
+somewhere in it (with incomplete ionisation: half the neutral bulk's majority density, the
+ionised share of the doping) (for a degenerate region this is reached with the bands still short of their
 bulk position, so V_bi may fall below V_bi0 while both regions keep a neutral part). Margins:
 ``core_majority_ln = ln(2 max p_core / N_core)`` and ``shell_majority_ln = ln(2 max n_shell /
 N_shell)`` (majority carriers; named apart from the depletion engine's geometric
@@ -21,6 +22,7 @@ import numpy as np
 from .._constants import K_B_EV, NM, Q
 from .._depletion import prepare, row_status, outputs, material_arrays, solve_pcore
 from .._design import REGIMES, DesignTable, normalize_designs
+from .._ionisation import check_ionisation, ionisation_column, row_dopants, unionised
 from .._profiles import fermi_minus_ev
 from .._roots import solve_bracketed
 from .._statistics import check_statistics, occupancy, reduced_level
@@ -28,25 +30,39 @@ from .._tunnel import tunnel_log10
 from .._validity import beyond_parabolic, penetration_text
 
 from ._grid import graded_grid
-from ._poisson import MAX_ITER, carriers, control_volumes, newton, residual
+from ._poisson import MAX_ITER, carriers, control_volumes, ionised, newton, residual
 
-SOLVER_VERSION = "1.1"  #: recorded in every training row; bump when results can change
+#: recorded in every training row; bump when results can change. 1.2: incomplete ionisation (default
+#: "auto": on below 200 K and for deep dopants); rows resolved to full ionisation answer as in 1.1
+SOLVER_VERSION = "1.2"
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
 BATCH = 256  #: designs per Newton batch
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
 H0_MAX_NM = 1.0  #: ... but at most this [nm]
 HMAX_FRACTION = 0.08  #: largest spacing as a fraction of the outer radius
+#: continuation in the dopants' localised share for designs Newton does not converge from the
+#: depletion start under incomplete ionisation: first stage and smallest stage (``_continue_ionisation``)
+IONISATION_STEP = 0.25
+IONISATION_MIN_STEP = 1.0 / 64
 
 
-def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics):
-    """E_F - E_majority-band-edge solving exact neutrality majority - minority = N [eV],
-    returned as y = E_F - E_v of a p-type region with N acceptors (mirrored frame)."""
+def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics, level=None, degeneracy=None, share=None):
+    """E_F - E_majority-band-edge solving exact neutrality majority - minority = ionised dopants
+    [eV], returned as y = E_F - E_v of a p-type region with N acceptors (mirrored frame). With
+    ``level`` (E_i [eV]), ``degeneracy`` [1] and ``share`` [1] the acceptors are ionised by
+    N- = N (1 - u(x)), x = (y - E_i)/kT (``_ionisation.unionised``); otherwise fully."""
     p = dict(N=N, Nv=dos_major, Nc=dos_minor, Eg=Eg, kT=kt)
+    if share is not None:
+        p.update(E=level, g=degeneracy, s=share)
 
-    def f(y, q):  # increasing in y: N - (p - n)
+    def f(y, q):  # increasing in y: N- - (p - n)
         fp, dfp = occupancy(-y / q["kT"], statistics)
         fn, dfn = occupancy((y - q["Eg"]) / q["kT"], statistics)
-        return q["N"] - q["Nv"] * fp + q["Nc"] * fn, (q["Nv"] * dfp + q["Nc"] * dfn) / q["kT"]
+        val, der = q["N"] - q["Nv"] * fp + q["Nc"] * fn, (q["Nv"] * dfp + q["Nc"] * dfn) / q["kT"]
+        if "s" in q:
+            u, du = unionised((y - q["E"]) / q["kT"], q["g"], q["s"])
+            val, der = val - q["N"] * u, der - q["N"] * du / q["kT"]
+        return val, der
 
     # bracket wide enough for any degeneracy: the majority-only level (minority carriers can only
     # lower |y|) lies below the root; a fixed -3 eV clipped degenerate narrow-gap levels (issue 10)
@@ -59,9 +75,14 @@ def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics):
     return y
 
 
-def _physics(table: DesignTable, statistics: str):
-    """Per-design arrays of the mirrored p-core problem, plus the depletion start."""
-    prob, cnl = prepare(table, statistics)
+def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
+    """Per-design arrays of the mirrored p-core problem, plus the depletion start and the
+    dopant levels (``_ionisation.row_dopants``) where ionisation is incomplete."""
+    incomplete, refused, dop = row_dopants(table, ionisation)
+    if refused is not None:
+        table = DesignTable(table.n, table.material, table.p_core, table.values, refused)
+    dop = dop if incomplete.any() else None
+    prob, cnl = prepare(table, statistics, dop)
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
     pc = table.p_core
@@ -74,10 +95,14 @@ def _physics(table: DesignTable, statistics: str):
         sol = solve_pcore(**prob)
         da_out = outputs(sol, **prob)
     da_ok = (row_status(table, prob, sol, da_out, cnl) == "ok") & (il == 0)
-    y_core = _neutral_level(prob["NA"], nv, nc, prob["Eg"], kt, statistics)
-    y_shell = prob["Eg"] - _neutral_level(prob["ND"], nc, nv, prob["Eg"], kt, statistics)
+    ion_c = ion_s = {}
+    if dop is not None:
+        ion_c = dict(level=dop["core_E"], degeneracy=dop["core_g"], share=np.where(ok, dop["core_s"], 0.0))
+        ion_s = dict(level=dop["shell_E"], degeneracy=dop["shell_g"], share=np.where(ok, dop["shell_s"], 0.0))
+    y_core = _neutral_level(prob["NA"], nv, nc, prob["Eg"], kt, statistics, **ion_c)
+    y_shell = prob["Eg"] - _neutral_level(prob["ND"], nc, nv, prob["Eg"], kt, statistics, **ion_s)
     return dict(prob=prob, sol=sol, da_ok=da_ok, kT=kt, Nv=nv, Nc=nc, b=prob["a"] + il,
-                y_core=y_core, y_shell=y_shell)
+                y_core=y_core, y_shell=y_shell, dopants=dop, table=table, incomplete=incomplete)
 
 
 def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, max_iter: int = MAX_ITER) -> dict:
@@ -105,16 +130,52 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
     y0 = np.where(np.isfinite(y0), y0, step)
     p = dict(eps=eps, face=face, vol=vol, core=core, shell=shell, NA=pr["NA"], ND=pr["ND"], R=R, Dit=pr["Dit"],
              Ecnl=pr["Ecnl"], kT=kt, Eg=pr["Eg"], Nv=ph["Nv"][sel], Nc=ph["Nc"][sel])
+    if ph["dopants"] is not None and ph["incomplete"][sel].any():  # only then the charge model's extra work
+        p.update({k: v[sel] for k, v in ph["dopants"].items()})
+        # the regime criterion's reference: the majority density of the neutral bulk (N itself
+        # under full ionisation, the ionised share when the dopants freeze out)
+        inc = ph["incomplete"][sel]
+        p["NA_ref"] = np.where(inc, p["Nv"] * occupancy(-yc / kt, statistics)[0], p["NA"])
+        p["ND_ref"] = np.where(inc, p["Nc"] * occupancy((ys - p["Eg"]) / kt, statistics)[0], p["ND"])
     with np.errstate(all="ignore"):
         y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter)
+        if "core_s" in p and not conv.all():
+            _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter)
         out = analyse(y, r, p, a, b, statistics)
     out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc, y_core=yc, y_shell=ys,
                Eg=p["Eg"], tunnel_log10=tunnel_log10(out["peak_field_V_per_m"], p["Eg"], p["Nc"] / 1e6,
                                                     p["Nv"] / 1e6, kt / K_B_EV))
     if profiles:
         hole, _, elec, _ = carriers(y, p, statistics)
-        out.update(r=r, y=y, hole=hole, elec=elec)
+        out.update(r=r, y=y, hole=hole, elec=elec, **{k: p[k] for k in ("NA_ref", "ND_ref") if k in p})
     return out
+
+
+def _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter):
+    """Designs with incomplete ionisation that Newton did not converge from the depletion start
+    (cold, lightly doped wires with a deep level, where the ionised share switches within a few
+    kT): solved again, one by one, by continuation in the dopants' localised share s, scaled from
+    0 (full ionisation) to 1 (the model) in stages of ``IONISATION_STEP`` that halve after a
+    failed stage (down to ``IONISATION_MIN_STEP``) and grow by half after a converged one, each
+    started from the last converged stage. Updates y, iters (all stages counted), conv and last
+    in place."""
+    for c in np.flatnonzero(~conv & ((p["core_s"] > 0) | (p["shell_s"] > 0))):
+        sub = {k: (v[..., c:c + 1] if np.ndim(v) else v) for k, v in p.items()}
+        yc, total, frac, step, ok = y0[:, c:c + 1], 0, 0.0, 0.0, True
+        while ok:
+            target = min(1.0, frac + step)
+            stage = dict(sub, core_s=sub["core_s"] * target, shell_s=sub["shell_s"] * target)
+            yn, it, cv, ls = newton(yc, stage, statistics, max_iter=max_iter)
+            total += int(it[0])
+            if cv[0]:
+                yc, frac = yn, target
+                if frac >= 1.0:
+                    break
+                step = IONISATION_STEP if step == 0.0 else min(1.5 * step, 1.0 - frac)
+            else:
+                step *= 0.5
+                ok = step >= IONISATION_MIN_STEP
+        y[:, c:c + 1], iters[c], conv[c], last[c] = yc if ok else yn, iters[c] + total, ok, 0.0 if ok else ls[0]
 
 
 def _crossing(r, ln_ratio, idx, inner):
@@ -175,13 +236,14 @@ def analyse(y, r, p, a, b, statistics):
     the largest |dy/dr| between the core's minimum and the shell's maximum (the junction).
     """
     hole, _, elec, _ = carriers(y, p, statistics)
+    NA, ND = ionised(y, p)  # the dopants' space charge (p["NA"], p["ND"] under full ionisation)
     N, B = r.shape
     cols = np.arange(B)
     idx = np.arange(N)[:, None]
     core_m, shell_m = r <= a, r >= b
     core_side, shell_side = r <= b, r >= a
-    ln_p = np.log(np.maximum(hole, 1e-300) / (0.5 * p["NA"]))
-    ln_n = np.log(np.maximum(elec, 1e-300) / (0.5 * p["ND"]))
+    ln_p = np.log(np.maximum(hole, 1e-300) / (0.5 * p.get("NA_ref", p["NA"])))
+    ln_n = np.log(np.maximum(elec, 1e-300) / (0.5 * p.get("ND_ref", p["ND"])))
     core_margin = np.where(core_m, ln_p, -np.inf).max(0)
     shell_margin = np.where(shell_m, ln_n, -np.inf).max(0)
     # extremes refined by a parabola through the extreme node and its neighbours (second-order
@@ -190,7 +252,7 @@ def analyse(y, r, p, a, b, statistics):
     # a depleting surface whose layer (net positive charge) runs through a thin shell and the
     # interlayer into the core, where it accumulates holes beyond N_A (a nearly intrinsic core):
     # the core's minimum is taken inside that layer's inner edge
-    pos = (hole - elec + np.where(r > b, p["ND"], np.where(r > a, 0.0, -p["NA"]))) > 0
+    pos = (hole - elec + np.where(r > b, ND, np.where(r > a, 0.0, -NA))) > 0
     k_run = np.where(~pos, idx, -1).max(0) + 1
     into_core = (k_run < N) & (r[np.clip(k_run, 0, N - 1), cols] <= a) & ~((p["Dit"] > 0) & (y[-1] < p["Ecnl"]))
     inner = core_side & (idx < k_run)
@@ -208,7 +270,7 @@ def analyse(y, r, p, a, b, statistics):
     accumulating = (p["Dit"] > 0) & (y[-1] < p["Ecnl"])
     # the layer: negative space charge in the shell (n - p > N_D), continued into the interlayer
     # and the core where these are inverted (n > p), as in a nearly intrinsic core
-    net = elec - hole - np.where(r > b, p["ND"], 0.0)  # [m^-3]
+    net = elec - hole - np.where(r > b, ND, 0.0)  # [m^-3]
     negative = net > 0
     k_edge = np.where(~negative, idx, -1).max(0) + 1  # first node of the run ending at R (N: none)
     accumulating &= k_edge < N
@@ -259,7 +321,7 @@ def analyse(y, r, p, a, b, statistics):
 
 
 def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: int = BATCH,
-          n_jobs: int = 1, max_iter: int = MAX_ITER) -> dict:
+          n_jobs: int = 1, max_iter: int = MAX_ITER, ionisation: str = "auto") -> dict:
     """Regime and built-in potential of each design by the reference solver.
 
     ``designs``: as for ``radialpn.deplete``. ``statistics``: ``"fermi-dirac"`` or
@@ -270,10 +332,14 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     ``charge_residual`` (|bulk + surface charge| over the total dopant charge), ``iterations``
     and ``solver_version``. A design that does not converge carries the reason in ``status``
     and no numbers. ``max_iter``: Newton steps before a design is declared not converged.
+    ``ionisation``: ``"auto"`` (default), ``"full"`` or ``"incomplete"`` (docs/physics.md section
+    4.1); the column ``ionisation`` says which model each row used.
     """
     statistics = check_statistics(statistics)
+    ionisation = check_ionisation(ionisation)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
-    ph = _physics(table, statistics)
+    ph = _physics(table, statistics, ionisation)
+    table = ph["table"]
     rows = np.flatnonzero(table.ok)
     parts = [rows[i:i + batch] for i in range(0, rows.size, batch)]
     workers = (os.cpu_count() or 1) if n_jobs == -1 else max(1, int(n_jobs))
@@ -282,7 +348,9 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     else:
         with ThreadPoolExecutor(min(workers, len(parts))) as pool:
             results = list(pool.map(lambda s: _chunk(ph, s, statistics, nodes, max_iter=max_iter), parts))
-    return _assemble(table, rows, parts, results)
+    out = _assemble(table, rows, parts, results)
+    out["ionisation"] = np.where(out["status"] == "ok", ionisation_column(table, ph["incomplete"]), "").astype(object)
+    return out
 
 
 _FLOAT_OUT = ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V",
