@@ -251,12 +251,13 @@ def _solve(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     psiR = psi_R(u, w)
     core_neutral = u > 0.0
     xm = min(w, rho)
-    psi_m = Ka2 * (NA * _h(u) - ND * (xm - 1.0 - w * _ln(xm)))
+    core_drop = Ka2 * NA * _h(u)  # the engine's grouping (``_depletion.outputs`` at beta = 1), so equal rounding
+    psi_m = core_drop - Ka2 * ND * (xm - 1.0 - w * _ln(xm))
     if coupled:
         vbi, bending = psi_m, psi_m - psiR
         regime = 2 if core_neutral else 3
     else:
-        vbi = vbi0 if core_neutral else Ka2 * (NA * _h(u) + ND * _h(w))
+        vbi = vbi0 if core_neutral else core_drop + Ka2 * ND * _h(w)
         bending = K * ND * R * R * _h(v_s)
         regime = 0 if core_neutral else 1
     t = R - a
