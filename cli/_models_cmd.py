@@ -72,6 +72,7 @@ def cmd_models(args, console, out) -> int:
                       f"{v['vbi_mean_mV']:.2f} / {v['vbi_p99_mV']:.2f}" if v else "",
                       f"{100 * v['interval_coverage']:.2f} %" if v else "")
     console.print(table)
+    _coverage_table(metas, console)
     named = [n for n, (_, _, m) in metas.items() if m is not None]
     dom = Table(title="trained domain (designs outside get no answer)", title_justify="left")
     dom.add_column("variable")
@@ -88,6 +89,32 @@ def cmd_models(args, console, out) -> int:
     console.print("[dim]Validated rows per bundle and the method: CARD.md in each bundle directory. Answers are "
                   "design estimates, not measurements.[/]")
     return _errors.OK
+
+
+REGIME_SHORT = {"both-neutral": "both\nneutral", "core-depleted": "core\ndepleted",
+                "shell-depleted": "shell\ndepleted", "all-depleted": "all\ndepleted"}
+
+
+def _coverage_table(metas, console) -> None:
+    """95 % interval coverage per solver regime (and the bundle's material), mean width beside."""
+    rows = [(n, m[2]["validation"]) for n, m in metas.items()
+            if m[2] is not None and "coverage_by_regime" in (m[2].get("validation") or {})]
+    if not rows:
+        return
+    t = Table(title=escape("95 % interval coverage by solver regime and material; mean width [mV]"),
+              title_justify="left")
+    t.add_column("bundle")
+    for lab in (*REGIME_SHORT.values(), "material"):
+        t.add_column(escape(lab), justify="right")
+
+    def cell(x):
+        return f"{100 * x['coverage']:.1f} %\n{x['mean_width_mV']:.1f}" if x and x["rows"] else "—"
+
+    for name, v in rows:
+        mat = next(iter(v["coverage_by_material"].items()))
+        t.add_row(name, *(cell(v["coverage_by_regime"].get(r)) for r in REGIME_SHORT),
+                  f"{mat[0]} {cell(mat[1])}")
+    console.print(t)
 
 
 def _q(col, x):
