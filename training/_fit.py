@@ -67,9 +67,10 @@ def mondrian_quantiles(scores: np.ndarray, groups: np.ndarray, n_groups: int, le
     Each group g (a category known before the answer, here the bundle's predicted regime)
     gets the ceil((n_g + 1) level)-th smallest of its own n_g finite ``scores``, which gives
     coverage >= ``level`` conditionally on the group for exchangeable data (Vovk, Gammerman &
-    Shafer, Algorithmic Learning in a Random World, Springer 2005, ch. 4, sec. 4.5, Mondrian
-    conformal predictors; Vovk, Lindsay, Nouretdinov & Gammerman, "Mondrian confidence
-    machine", 2003). The rank exists only when ceil((n_g + 1) level) <= n_g, and a quantile of
+    Shafer, Algorithmic Learning in a Random World, Springer 2005, doi:10.1007/b106715, ch. 4,
+    Mondrian conformal predictors (section number from memory); first in Vovk, Lindsay,
+    Nouretdinov & Gammerman, "Mondrian confidence machine", technical report, Royal Holloway
+    University of London, 2003). The rank exists only when ceil((n_g + 1) level) <= n_g, and a quantile of
     a few rows is noisy (its coverage is Beta(k, n_g + 1 - k) distributed, sd ~
     sqrt(level (1 - level) / n_g)), so a group with fewer than ``min_rows`` finite scores
     falls back to the pooled quantile of all rows (marginal guarantee only).
