@@ -40,6 +40,9 @@ def register(sub) -> None:
     tr.add_argument("--data", metavar="DIR", help="dataset directory (default: data/NAME; resumable)")
     tr.add_argument("-o", "--output", metavar="DIR", help="bundle directory (default: models/NAME)")
     tr.add_argument("--jobs", type=int, default=-1, help="worker processes for the solver")
+    tr.add_argument("--recalibrate", action="store_true",
+                    help="recompute only the interval quantiles of the existing bundle: solves the spec's calibration "
+                         "split alone, keeps the fitted models, then validates again")
     tr.set_defaults(handler=cmd_train)
 
 
@@ -165,6 +168,19 @@ def cmd_train(args, console, out) -> int:
     spec = load_spec(args.spec)
     data = args.data or str(Path("data") / spec.name)
     dest = args.output or str(Path("models") / spec.name)
+    if args.recalibrate:
+        from radialpn.training import recalibrate
+
+        if not (Path(dest) / "bundle.json").is_file():
+            raise _errors.UsageError(f"--recalibrate: no bundle in {dest} (give it with -o DIR)")
+        with console.status(f"solving the calibration split of {spec.name} and validating…"):
+            report = recalibrate(args.spec, dest, n_jobs=args.jobs, log=lambda m: console.print(f"[dim]{escape(m)}[/]"))
+        console.print(f"{dest}: coverage {report['interval_coverage']:.4f}, mean width "
+                      f"{report['interval_mean_width_mV']:.2f} mV ({report['rows']:,} fresh solver runs); "
+                      f"per regime: " + ", ".join(f"{r} {x['coverage']:.4f}" for r, x in
+                                                  report["coverage_by_regime"].items() if x["rows"])
+                      + f". Card: {dest}/CARD.md")
+        return _errors.OK
     report = train_bundle(args.spec, data, dest, n_jobs=args.jobs, log=lambda m: console.print(f"[dim]{m}[/]"))
     console.print(f"{dest}: regime accuracy {report['regime_accuracy']:.4f}, V_bi mean {report['vbi_mean_mV']:.2f} mV, "
                   f"p99 {report['vbi_p99_mV']:.2f} mV, coverage {report['interval_coverage']:.4f} "

@@ -81,7 +81,8 @@ def render_card(meta: dict) -> str:
             f"| mean interval width | {v['interval_mean_width_mV']:.2f} mV | — |",
             f"| GP V_bi mean / p99 error | {v['gp_vbi_mean_mV']:.2f} / {v['gp_vbi_p99_mV']:.2f} mV | — |",
             f"| GP interval coverage | {v['gp_interval_coverage']:.4f} | — |",
-            f"| flagged for the solver (low regime probability or GP disagreement) | {v['flagged_rate']:.2%} | — |",
+            f"| flagged for the solver (regime probability < 0.9, interval wider than +-20 mV or GP disagreement) | "
+            f"{v['flagged_rate']:.2%} | — |",
             "",
             "Confusion matrix (rows: solver, columns: surrogate):",
             "",
