@@ -23,9 +23,12 @@ CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for th
 CONFIRM_HALF_WIDTH_V = 0.020
 MIN_NEUTRAL_NM = 0.05  #: a region the regime keeps is reported with at least this neutral extent [nm]
 DOMAIN_SLACK = 0.05  #: a bundle's domain may exceed its fitted data's span by this share of it
-#: V_bi's learned residual is averaged over this many designs around each design (1: no smoothing)
+#: V_bi's learned residual is averaged over this many designs around each design (1: no smoothing);
+#: a bundle records the smoothing its quantiles were calibrated with (``conformal.smooth_points``,
+#: ``smooth_dex``) and runs with it; these are the defaults a (re)calibration writes
 SMOOTH_POINTS = 8
 SMOOTH_DEX = 0.003  #: half-width of that neighbourhood in radius, shell, dopings and D_it [decades]
+MAX_SMOOTH_POINTS = 64
 SMOOTH_COLUMNS = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
 SMOOTH_STRIDES = (1, 3, 5, 7, 3)  #: lattice generator, one odd stride per column (coprime to 8)
 AUX = ("core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V")
@@ -43,6 +46,9 @@ class SurrogateModel:
                               f"{meta.get('features_version')}, this radialpn has {FEATURES_VERSION}")
         self.meta, self.path = meta, path
         fields = _check_meta(meta)
+        #: neighbours V_bi's residual is averaged over, and their spread [decades]: as the bundle's
+        #: quantiles were calibrated (changing them voids the calibration; benchmarks only)
+        self.smooth_points, self.smooth_dex = fields["smooth_points"], fields["smooth_dex"]
         self.name, self.material, self.core_type, self.statistics = fields["identity"]
         self.domain, self.fixed = fields["domain"], fields["fixed"]
         self.temperature_, self.q_gbm_, self.q_gp_ = fields["temperature"], fields["q_gbm"], fields["q_gp"]
@@ -210,11 +216,11 @@ class SurrogateModel:
         and where the residual is steep many trees split at the same feature bin, so a 0.05 nm
         step could move V_bi by 10 mV where the solver moves 1 mV; the average is the uniform
         kernel smoothing of the residual over that box by a rank-1 lattice rule (Sloan & Joe,
-        Lattice Methods for Multiple Integration, Oxford 1994, ch. 1), which splits each such
+        Lattice Methods for Multiple Integration, Oxford 1994, from memory), which splits each such
         jump into ``SMOOTH_POINTS`` smaller ones. Rows whose neighbours the depletion engine
         cannot answer keep the unsmoothed residual. The conformal quantiles are calibrated on
         this centre (``conformal_scores``)."""
-        off = smooth_offsets()
+        off = smooth_offsets(self.smooth_points, self.smooth_dex)
         k, n = off.shape[0], sub.n
         if k <= 1 or n == 0:
             return da["vbi_V"] + residual
@@ -250,13 +256,13 @@ class SurrogateModel:
         return out
 
 
-def smooth_offsets(k: int = SMOOTH_POINTS) -> np.ndarray:
+def smooth_offsets(k: int = SMOOTH_POINTS, dex: float = SMOOTH_DEX) -> np.ndarray:
     """(k, 5) offsets [decades] of ``SMOOTH_COLUMNS``: the rank-1 lattice
-    u_ij = ((i g_j) mod k + 1/2) / k mapped to +-``SMOOTH_DEX``; with every stride g_j coprime
-    to k each column takes k equally spaced levels once (mean exactly 0)."""
-    i = np.arange(max(int(k), 1))[:, None]
-    u = ((i * np.array(SMOOTH_STRIDES)) % max(int(k), 1) + 0.5) / max(int(k), 1)
-    return (2.0 * u - 1.0) * SMOOTH_DEX
+    u_ij = ((i g_j) mod k + 1/2) / k mapped to +-``dex``; with every stride g_j coprime to k
+    each column takes k equally spaced levels once (mean exactly 0)."""
+    k = max(int(k), 1)
+    u = ((np.arange(k)[:, None] * np.array(SMOOTH_STRIDES)) % k + 0.5) / k
+    return (2.0 * u - 1.0) * dex
 
 
 FEATURE_INDEX = {"core_radius_nm": 0, "shell_thickness_nm": 1, "core_doping_cm3": 2, "shell_doping_cm3": 3,
@@ -305,6 +311,13 @@ def _check_meta(meta: dict) -> dict:
         need(ok, f"{key} must be a finite positive number (got {src!r})")
         vals[key] = float(src)
     vals.update(_check_groups(conf, vals, need))
+    # the centre the quantiles were calibrated on; absent: written before smoothing, so none
+    k, dex = conf.get("smooth_points", 1), conf.get("smooth_dex", 0.0)
+    need(isinstance(k, int) and not isinstance(k, bool) and 1 <= k <= MAX_SMOOTH_POINTS,
+         f"conformal.smooth_points must be a count in [1, {MAX_SMOOTH_POINTS}] (got {k!r})")
+    need(isinstance(dex, (int, float)) and not isinstance(dex, bool) and np.isfinite(dex) and 0 <= dex <= 0.05,
+         f"conformal.smooth_dex must be in [0, 0.05] decades (got {dex!r})")
+    vals.update(smooth_points=k, smooth_dex=float(dex))
     return {"identity": (name, material, meta["core_type"], meta["statistics"]), "domain": domain,
             "fixed": {c: float(x) for c, x in fixed.items()}, **vals}
 

@@ -58,6 +58,8 @@ CASES = {
                                        "one entry per regime"),
     "group size not a count": (_bad_meta(lambda m: m["conformal"]["groups"]["shell-depleted"].update(rows="many")),
                                None, "conformal.groups.shell-depleted.rows"),
+    "smoothing out of range": (_bad_meta(lambda m: m["conformal"].update(smooth_points=0)), None,
+                               "conformal.smooth_points"),
     "unknown grouping": (_bad_meta(lambda m: m["conformal"].update(groups_by="material")), None, "groups_by"),
 }
 

@@ -54,7 +54,7 @@ def render_card(meta: dict) -> str:
         f"- Regime: gradient-boosted classifier ({meta['models']['regime']}), probabilities temperature-scaled "
         f"(T = {meta['temperature']:.3f}) on the calibration set.",
         f"- V_bi: gradient-boosted regressor of the residual to the depletion approximation "
-        f"({meta['models']['vbi']}), averaged over a small neighbourhood of each design (smoothing); 95 % "
+        f"({meta['models']['vbi']}){_smoothing_text(meta['conformal'])}; 95 % "
         f"split-conformal intervals normalised by a difficulty model, {_quantile_text(meta['conformal'])}.",
         f"- Second opinion: Gaussian process `{meta['models']['gp']['kernel']}` on a "
         f"{meta['models']['gp']['mean_points']}-point Sobol prefix (std from {meta['models']['gp']['std_points']} "
@@ -172,3 +172,11 @@ def _coverage_tables(v: dict) -> list:
                   f"obeys the bound and can only lower it where it does not ({100 * out:.2f} % of rows, "
                   f"{v['truth_outside_bounds_uncovered']} of them left uncovered).", ""]
     return lines
+
+
+def _smoothing_text(conf: dict) -> str:
+    k = conf.get("smooth_points", 1)
+    if k <= 1:
+        return ""
+    return (f", averaged over {k} designs within +-{conf['smooth_dex']:g} decades of radius, shell, dopings and "
+            "D_it (smooths the trees' steps)")

@@ -90,15 +90,18 @@ def mondrian_quantiles(scores: np.ndarray, groups: np.ndarray, n_groups: int, le
     return pooled, q, rows, own
 
 
-def conformal_block(tree_scores, gp_scores, groups, level: float = LEVEL, min_rows: int = MIN_GROUP_ROWS) -> dict:
+def conformal_block(tree_scores, gp_scores, groups, level: float = LEVEL, min_rows: int = MIN_GROUP_ROWS,
+                    smoothing: tuple = (1, 0.0)) -> dict:
     """bundle.json's ``conformal`` block from calibration scores of the trees and the GP,
-    grouped by predicted regime (codes into ``REGIMES``)."""
+    grouped by predicted regime (codes into ``REGIMES``); ``smoothing``: (points, decades) of the
+    V_bi centre the tree scores were computed with (surrogate/_model.py ``SMOOTH_POINTS``)."""
     q_gbm, qg, rows, own = mondrian_quantiles(tree_scores, groups, len(REGIMES), level, min_rows)
     q_gp, qp, _, own_gp = mondrian_quantiles(gp_scores, groups, len(REGIMES), level, min_rows)
     own &= own_gp  # a group uses its own quantiles for both models or the pooled ones for both
     qg, qp = np.where(own, qg, q_gbm), np.where(own, qp, q_gp)
     return {"level": level, "q_gbm": q_gbm, "q_gp": q_gp, "calibration_rows": int(np.isfinite(tree_scores).sum()),
             "groups_by": "predicted_regime", "min_group_rows": int(min_rows),
+            "smooth_points": int(smoothing[0]), "smooth_dex": float(smoothing[1]),
             "groups": {r: {"rows": int(rows[i]), "q_gbm": float(qg[i]), "q_gp": float(qp[i]),
                            "pooled": bool(not own[i])} for i, r in enumerate(REGIMES)}}
 
@@ -187,6 +190,7 @@ def fit_bundle(spec, data_dir, log=print, seed: int = 0, gp_points=(GP_FIT_POINT
     from .._gp import GaussianProcess
 
     gm, gs = GaussianProcess(gp).predict((Xc - mu) / sd)
+    # scores of the unsmoothed trees: `train_bundle` recalibrates on the runtime's smoothed centre
     conformal = conformal_block(tree_scores, np.abs(resc - gm) / gs, group_c)
     log(f"Gaussian process: {gpr.kernel_}; pooled conformal q = {conformal['q_gp']:.3f} "
         f"({time.perf_counter() - t0:.1f} s)")

@@ -6,12 +6,13 @@ the old intervals; validate again afterwards."""
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import numpy as np
 
 from .._bundle import BundleError, read_bundle, write_bundle
-from .._model import SurrogateModel
+from .._model import SMOOTH_DEX, SMOOTH_POINTS, SurrogateModel
 
 from ._card import render_card
 from ._dataset import split_designs
@@ -32,14 +33,20 @@ def recalibrate_bundle(path, spec_path, n_jobs: int = -1, solved: dict | None = 
     if meta.get("solver_version") != SOLVER_VERSION:
         raise BundleError(f"bundle {path.name}: fitted on solver {meta.get('solver_version')}, this is "
                           f"{SOLVER_VERSION}; retrain it (`radialpn train`)")
-    model = SurrogateModel(meta, arrays, path)
+    old = dict(meta.get("conformal", {}))
+    meta = json.loads(json.dumps(meta))
+    meta.setdefault("conformal", {}).update(smooth_points=SMOOTH_POINTS, smooth_dex=SMOOTH_DEX)
+    model = SurrogateModel(meta, arrays, path)  # scored with the runtime's default smoothing
     designs = split_designs(spec, "calibration")
     truth = solved if solved is not None else solve(designs, spec.statistics, n_jobs=n_jobs)
+    if len(truth["status"]) != len(designs["core_radius_nm"]):
+        raise BundleError(f"bundle {path.name}: {len(truth['status'])} solved calibration rows for "
+                          f"{len(designs['core_radius_nm'])} designs of the spec's calibration split")
     ok = np.flatnonzero(np.asarray(truth["status"]) == "ok")
     sc = model.conformal_scores({k: (v[ok] if np.ndim(v) else v) for k, v in designs.items()},
                                 np.asarray(truth["vbi_V"], dtype=float)[ok])
-    old = meta.get("conformal", {})
-    conformal = conformal_block(sc["tree"], sc["gp"], sc["group"], float(old.get("level", LEVEL)), min_rows)
+    conformal = conformal_block(sc["tree"], sc["gp"], sc["group"], float(old.get("level", LEVEL)), min_rows,
+                                (SMOOTH_POINTS, SMOOTH_DEX))
     log(f"{path.name}: pooled q_gbm {old.get('q_gbm', float('nan')):.4f} -> {conformal['q_gbm']:.4f}, "
         f"q_gp {old.get('q_gp', float('nan')):.4f} -> {conformal['q_gp']:.4f}; per regime: "
         + ", ".join(f"{r} {g['q_gbm']:.3f}/{g['q_gp']:.3f} ({g['rows']} rows{', pooled' if g['pooled'] else ''})"

@@ -8,7 +8,7 @@ from .._bundle import read_bundle, write_bundle
 from .._model import SurrogateModel
 
 from ._card import render_card
-from ._dataset import build_dataset
+from ._dataset import build_dataset, read_rows
 from ._fit import fit_bundle
 from ._recalibrate import recalibrate_bundle
 from ._solver import SOLVER_VERSION, solve
@@ -45,6 +45,10 @@ def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, va
         solver_version=SOLVER_VERSION, spec_sha256=spec.digest(), fitted_with=library_versions(),
     )
     write_bundle(out_dir, meta, arrays, render_card(meta))
+    # quantiles on the runtime's (smoothed) V_bi centre, from the calibration rows already solved
+    recalibrate_bundle(out_dir, spec_path, solved=read_rows(data_dir, ("calibration",), columns=["vbi_V", "status"]),
+                       log=log)
+    meta = {k: v for k, v in read_bundle(out_dir)[0].items() if k not in ("format", "format_version")}
     report = validate_bundle(out_dir, validate_rows, validate_seed, n_jobs=n_jobs, targeted=True)
     meta["validation"] = report
     write_bundle(out_dir, meta, arrays, render_card(meta))
