@@ -73,6 +73,19 @@ def main():
     gp = rate(lambda: m.predict({k: (v[:50000] if np.ndim(v) else v) for k, v in d.items()}, True), 50000, 1)
     s = designs(a.solver_rows, seed=4)
     sol = rate(lambda: solve(s, n_jobs=-1), a.solver_rows, 1)
+    # the cost of V_bi's neighbourhood smoothing (m.smooth_points neighbours), same run
+    k = m.smooth_points
+    m.smooth_points = 1
+    lat1 = []
+    for _ in range(500):
+        t = time.perf_counter()
+        m.predict(one)
+        lat1.append(time.perf_counter() - t)
+    plain = rate(lambda: m.predict(d), a.rows)
+    m.smooth_points = k
+    print(f"V_bi smoothing over {k} neighbours: single query {1e3 * np.median(lat):.3f} ms against "
+          f"{1e3 * np.median(lat1):.3f} ms without (x{np.median(lat) / np.median(lat1):.2f}); batch {fast:,.0f} "
+          f"against {plain:,.0f} designs/s (x{plain / fast:.2f} slower)")
     print(f"surrogate {m.name}: single query median {1e3 * np.median(lat):.3f} ms "
           f"(with GP second opinion {1e3 * np.median(lat2):.3f} ms); through radialpn.predict (auto) "
           f"{1e3 * np.median(api):.3f} ms; the vectorised path for the same design {1e3 * np.median(general):.3f} ms "

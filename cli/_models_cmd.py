@@ -40,6 +40,9 @@ def register(sub) -> None:
     tr.add_argument("--data", metavar="DIR", help="dataset directory (default: data/NAME; resumable)")
     tr.add_argument("-o", "--output", metavar="DIR", help="bundle directory (default: models/NAME)")
     tr.add_argument("--jobs", type=int, default=-1, help="worker processes for the solver")
+    tr.add_argument("--recalibrate", action="store_true",
+                    help="recompute only the interval quantiles of the existing bundle: solves the spec's calibration "
+                         "split alone, keeps the fitted models, then validates again")
     tr.set_defaults(handler=cmd_train)
 
 
@@ -72,6 +75,7 @@ def cmd_models(args, console, out) -> int:
                       f"{v['vbi_mean_mV']:.2f} / {v['vbi_p99_mV']:.2f}" if v else "",
                       f"{100 * v['interval_coverage']:.2f} %" if v else "")
     console.print(table)
+    _coverage_table(metas, console)
     named = [n for n, (_, _, m) in metas.items() if m is not None]
     dom = Table(title="trained domain (designs outside get no answer)", title_justify="left")
     dom.add_column("variable")
@@ -88,6 +92,32 @@ def cmd_models(args, console, out) -> int:
     console.print("[dim]Validated rows per bundle and the method: CARD.md in each bundle directory. Answers are "
                   "design estimates, not measurements.[/]")
     return _errors.OK
+
+
+REGIME_SHORT = {"both-neutral": "both\nneutral", "core-depleted": "core\ndepleted",
+                "shell-depleted": "shell\ndepleted", "all-depleted": "all\ndepleted"}
+
+
+def _coverage_table(metas, console) -> None:
+    """95 % interval coverage per solver regime (and the bundle's material), mean width beside."""
+    rows = [(n, m[2]["validation"]) for n, m in metas.items()
+            if m[2] is not None and "coverage_by_regime" in (m[2].get("validation") or {})]
+    if not rows:
+        return
+    t = Table(title=escape("95 % interval coverage by solver regime and material; mean width [mV]"),
+              title_justify="left")
+    t.add_column("bundle")
+    for lab in (*REGIME_SHORT.values(), "material"):
+        t.add_column(escape(lab), justify="right")
+
+    def cell(x):
+        return f"{100 * x['coverage']:.1f} %\n{x['mean_width_mV']:.1f}" if x and x["rows"] else "—"
+
+    for name, v in rows:
+        mat = next(iter(v["coverage_by_material"].items()))
+        t.add_row(name, *(cell(v["coverage_by_regime"].get(r)) for r in REGIME_SHORT),
+                  f"{mat[0]} {cell(mat[1])}")
+    console.print(t)
 
 
 def _q(col, x):
@@ -138,6 +168,19 @@ def cmd_train(args, console, out) -> int:
     spec = load_spec(args.spec)
     data = args.data or str(Path("data") / spec.name)
     dest = args.output or str(Path("models") / spec.name)
+    if args.recalibrate:
+        from radialpn.training import recalibrate
+
+        if not (Path(dest) / "bundle.json").is_file():
+            raise _errors.UsageError(f"--recalibrate: no bundle in {dest} (give it with -o DIR)")
+        with console.status(f"solving the calibration split of {spec.name} and validating…"):
+            report = recalibrate(args.spec, dest, n_jobs=args.jobs, log=lambda m: console.print(f"[dim]{escape(m)}[/]"))
+        console.print(f"{dest}: coverage {report['interval_coverage']:.4f}, mean width "
+                      f"{report['interval_mean_width_mV']:.2f} mV ({report['rows']:,} fresh solver runs); "
+                      f"per regime: " + ", ".join(f"{r} {x['coverage']:.4f}" for r, x in
+                                                  report["coverage_by_regime"].items() if x["rows"])
+                      + f". Card: {dest}/CARD.md")
+        return _errors.OK
     report = train_bundle(args.spec, data, dest, n_jobs=args.jobs, log=lambda m: console.print(f"[dim]{m}[/]"))
     console.print(f"{dest}: regime accuracy {report['regime_accuracy']:.4f}, V_bi mean {report['vbi_mean_mV']:.2f} mV, "
                   f"p99 {report['vbi_p99_mV']:.2f} mV, coverage {report['interval_coverage']:.4f} "

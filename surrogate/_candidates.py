@@ -16,7 +16,7 @@ from ._qcommon import _check_count, _column, _range, _reachable, _target, answer
 from ._tunnel import TUNNEL_RISK_LOG10
 
 SEARCH_CHUNK = 100_000  #: candidates per engine call in ``search``
-SEARCH_MODELS = ("vbi", "difficulty")  #: surrogate trees a search reads (V_bi, interval; + regime if asked)
+SEARCH_MODELS = ("regime", "vbi", "difficulty")  #: surrogate trees a search reads (V_bi, its interval and the regime whose quantile it takes)
 OBJECTIVES = ("total-radius", "core-radius", "shell-thickness")
 
 
@@ -74,7 +74,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     t0 = time.perf_counter()
     for s in range(0, n, SEARCH_CHUNK):
         part = {k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()}
-        res = answer(part, engine, statistics, ionisation=ionisation, models=SEARCH_MODELS + (("regime",) if regimes else ()))
+        res = answer(part, engine, statistics, ionisation=ionisation, models=SEARCH_MODELS)
         ok = _search.meets(res, **target, bound="low" if "vbi_low_V" in res else "value")
         if regimes:
             closest["vbi_ok"] += int(ok.sum())
@@ -98,9 +98,6 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
         best = sorted(best, key=lambda b: b[0])[:top]
         if progress:
             progress(min(s + SEARCH_CHUNK, n), n)
-    if best and not regimes:  # the winners' regime: their full answer (the scan skipped the regime trees)
-        again = answer({k: [b[1][k] for b in best] for k in best[0][1]}, engine, statistics, ionisation=ionisation)
-        best = [(o, row, str(r), *rest) for (o, row, _, *rest), r in zip(best, again["regime"])]
     seconds = time.perf_counter() - t0
     winners = {c: np.array([b[1][c] for b in best], dtype=float) for c in space}
     winners.update(objective=np.array([b[0] for b in best], dtype=float),

@@ -18,8 +18,20 @@ from ._single import features_one, one_design
 from ._trees import TreeEnsemble
 
 CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for the solver
+#: a design whose 95 % interval (after the bounds) is wider than +- this is flagged for the solver
+#: (issue 5's 99th-percentile error target): on the shipped bundles' validation runs this flags
+#: 6-9 % of designs without the GP (+-10 mV would flag 14-16 %) [V]
+CONFIRM_HALF_WIDTH_V = 0.020
 MIN_NEUTRAL_NM = 0.05  #: a region the regime keeps is reported with at least this neutral extent [nm]
 DOMAIN_SLACK = 0.05  #: a bundle's domain may exceed its fitted data's span by this share of it
+#: V_bi's learned residual is averaged over this many designs around each design (1: no smoothing);
+#: a bundle records the smoothing its quantiles were calibrated with (``conformal.smooth_points``,
+#: ``smooth_dex``) and runs with it; these are the defaults a (re)calibration writes
+SMOOTH_POINTS = 8
+SMOOTH_DEX = 0.003  #: half-width of that neighbourhood in radius, shell, dopings and D_it [decades]
+MAX_SMOOTH_POINTS = 64
+SMOOTH_COLUMNS = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
+SMOOTH_STRIDES = (1, 3, 5, 7, 3)  #: lattice generator, one odd stride per column (coprime to 8)
 AUX = ("core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V")
 #: per-regime probabilities (opt-in ``class_probs``), in the order of ``REGIMES``
 PROB_COLUMNS = tuple("prob_" + r.replace("-", "_") for r in REGIMES)
@@ -35,9 +47,14 @@ class SurrogateModel:
                               f"{meta.get('features_version')}, this radialpn has {FEATURES_VERSION}")
         self.meta, self.path = meta, path
         fields = _check_meta(meta)
+        #: neighbours V_bi's residual is averaged over, and their spread [decades]: as the bundle's
+        #: quantiles were calibrated (changing them voids the calibration; benchmarks only)
+        self.smooth_points, self.smooth_dex = fields["smooth_points"], fields["smooth_dex"]
         self.name, self.material, self.core_type, self.statistics = fields["identity"]
         self.domain, self.fixed = fields["domain"], fields["fixed"]
         self.temperature_, self.q_gbm_, self.q_gp_ = fields["temperature"], fields["q_gbm"], fields["q_gp"]
+        # conformal quantiles per predicted regime (Mondrian), indexed by the regime's code
+        self.q_gbm_by_regime_, self.q_gp_by_regime_ = fields["q_gbm_by_regime"], fields["q_gp_by_regime"]
 
         def part(prefix):
             return {k[len(prefix) + 1:]: v for k, v in arrays.items() if k.startswith(prefix + "/")}
@@ -51,6 +68,7 @@ class SurrogateModel:
             self.forest_ = TreeEnsemble.stack(ensembles)  # one walk answers every tree model
             edges = np.cumsum([0] + [e.n_outputs for e in ensembles])
             self.slices_ = {name: slice(a, b) for (name, _), a, b in zip(parts, edges[:-1], edges[1:])}
+            self.vbi_forest_ = TreeEnsemble(part("vbi"))  # alone, for the smoothing neighbours
             self.gp_ = GaussianProcess(part("gp"))
             self.gp_mean_, self.gp_scale_ = arrays["gp/x_mean"], arrays["gp/x_scale"]
             self.ref_X_ = arrays["ref/X"]
@@ -192,8 +210,9 @@ class SurrogateModel:
             # bounds by construction: 0 <= V_bi <= V_bi0 for the estimate and both interval ends
             # (the electrostatic barrier cannot exceed the bulk one on a depleting surface nor be negative)
             vbi0 = da["vbi0_V"]
-            centre = da["vbi_V"] + raw[:, sl["vbi"]][:, 0]
-            half = self.q_gbm_ * np.exp(raw[:, sl["difficulty"]][:, 0])
+            residual = raw[:, sl["vbi"]][:, 0]  # NaN when "vbi" is not evaluated: no neighbours then
+            centre = self._vbi_centre(sub, da, residual) if "vbi" in models else da["vbi_V"] + residual
+            half = self.q_gbm_by_regime_[code] * np.exp(raw[:, sl["difficulty"]][:, 0])
             vbi = np.clip(centre, 0.0, vbi0)
             names = np.array(REGIMES, dtype=object)
             regime[rows] = names[code]
@@ -201,13 +220,13 @@ class SurrogateModel:
             for k, col in enumerate(prob_cols.values()):
                 col[rows] = p[:, k]
             out["vbi_V"][rows] = vbi
-            out["vbi_low_V"][rows] = np.clip(centre - half, 0.0, vbi0)
-            out["vbi_high_V"][rows] = np.clip(centre + half, 0.0, vbi0)
+            low, high = np.clip(centre - half, 0.0, vbi0), np.clip(centre + half, 0.0, vbi0)
+            out["vbi_low_V"][rows], out["vbi_high_V"][rows] = low, high
             out["vbi0_V"][rows] = da["vbi0_V"]
             # extents follow the regime: zero where it empties a region; where it keeps one, at
             # least MIN_NEUTRAL_NM (a contradicting extent model is overruled and the row flagged)
             core_kept, shell_kept = (code == 0) | (code == 2), (code == 0) | (code == 1)
-            flag = p.max(1) < CONFIRM_PROB
+            flag = (p.max(1) < CONFIRM_PROB) | (0.5 * (high - low) > CONFIRM_HALF_WIDTH_V)  # no GP needed
             for t in AUX:
                 val = da[t] + raw[:, sl[t]][:, 0]
                 for col, dim, kept in (("core_neutral_radius_nm", "core_radius_nm", core_kept),
@@ -219,10 +238,11 @@ class SurrogateModel:
             if second_opinion:
                 gm, gs = self.gp_.predict((X - self.gp_mean_) / self.gp_scale_)
                 gv = da["vbi_V"] + gm
+                gh = self.q_gp_by_regime_[code] * gs
                 gp_cols["vbi_gp_V"][rows] = gv
-                gp_cols["vbi_gp_low_V"][rows] = gv - self.q_gp_ * gs
-                gp_cols["vbi_gp_high_V"][rows] = gv + self.q_gp_ * gs
-                flag |= np.abs(gv - vbi) > np.maximum(half, self.q_gp_ * gs)
+                gp_cols["vbi_gp_low_V"][rows] = gv - gh
+                gp_cols["vbi_gp_high_V"][rows] = gv + gh
+                flag |= np.abs(gv - vbi) > np.maximum(half, gh)
             if "regime" not in models:
                 regime[rows] = ""
                 flag[:] = False
@@ -248,6 +268,61 @@ class SurrogateModel:
                 "vbi_low_V": out["vbi_low_V"], "vbi_high_V": out["vbi_high_V"], "in_domain": in_domain,
                 "confirm_with_solver": confirm, **gp_cols, **prob_cols}
 
+    def _vbi_centre(self, sub: DesignTable, da: dict, residual: np.ndarray) -> np.ndarray:
+        """V_bi before the bounds [V]: the depletion engine's V_bi plus the trees' residual [V]
+        averaged over ``SMOOTH_POINTS`` designs within +-``SMOOTH_DEX`` decades of radius,
+        shell, dopings and D_it (``smooth_offsets``). Trees are step functions of their inputs,
+        and where the residual is steep many trees split at the same feature bin, so a 0.05 nm
+        step could move V_bi by 10 mV where the solver moves 1 mV; the average is the uniform
+        kernel smoothing of the residual over that box by a rank-1 lattice rule (Sloan & Joe,
+        Lattice Methods for Multiple Integration, Oxford 1994, from memory), which splits each such
+        jump into ``SMOOTH_POINTS`` smaller ones. Rows whose neighbours the depletion engine
+        cannot answer keep the unsmoothed residual. The conformal quantiles are calibrated on
+        this centre (``conformal_scores``)."""
+        off = smooth_offsets(self.smooth_points, self.smooth_dex)
+        k, n = off.shape[0], sub.n
+        if k <= 1 or n == 0:
+            return da["vbi_V"] + residual
+        values = {c: np.tile(v, k) for c, v in sub.values.items()}
+        for j, c in enumerate(SMOOTH_COLUMNS):
+            values[c] = values[c] * np.repeat(10.0 ** off[:, j], n)
+        near = DesignTable(n=n * k, material=np.tile(sub.material, k), p_core=np.tile(sub.p_core, k), values=values,
+                           status=np.tile(sub.status, k))
+        Xn, dan = features(near, self.statistics)
+        res = self.vbi_forest_.raw(Xn)[:, 0].reshape(k, n)
+        good = (np.isfinite(Xn).all(1) & (dan["status"] == "ok")).reshape(k, n).all(0)
+        return da["vbi_V"] + np.where(good, res.mean(0), residual)
+
+    def conformal_scores(self, designs, vbi_V) -> dict:
+        """Calibration scores of designs whose true ``vbi_V`` [V] is known (solver answers):
+        ``group`` (predicted regime code), ``tree`` = |V_bi - centre| / scale of the trees'
+        unclipped interval and ``gp`` = |V_bi - GP mean| / GP std, NaN where the surrogate does
+        not answer. What the bundle's conformal quantiles are computed from."""
+        table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
+        y = np.broadcast_to(np.asarray(vbi_V, dtype=float), (table.n,))
+        out = {"group": np.full(table.n, -1), "tree": np.full(table.n, np.nan), "gp": np.full(table.n, np.nan)}
+        rows = np.flatnonzero((table.status == "ok") & (self.domain_check(table) == ""))
+        if rows.size:
+            X, da = features(table.take(rows), self.statistics)
+            raw = self.forest_.raw(X)
+            sl = self.slices_
+            centre = self._vbi_centre(table.take(rows), da, raw[:, sl["vbi"]][:, 0])
+            gm, gs = self.gp_.predict((X - self.gp_mean_) / self.gp_scale_)
+            good = np.isfinite(X).all(1) & (da["status"] == "ok")
+            out["group"][rows] = np.where(good, raw[:, sl["regime"]].argmax(1), -1)
+            out["tree"][rows] = np.where(good, np.abs(y[rows] - centre) / np.exp(raw[:, sl["difficulty"]][:, 0]), np.nan)
+            out["gp"][rows] = np.where(good, np.abs(y[rows] - da["vbi_V"] - gm) / gs, np.nan)
+        return out
+
+
+def smooth_offsets(k: int = SMOOTH_POINTS, dex: float = SMOOTH_DEX) -> np.ndarray:
+    """(k, 5) offsets [decades] of ``SMOOTH_COLUMNS``: the rank-1 lattice
+    u_ij = ((i g_j) mod k + 1/2) / k mapped to +-``dex``; with every stride g_j coprime to k
+    each column takes k equally spaced levels once (mean exactly 0)."""
+    k = max(int(k), 1)
+    u = ((np.arange(k)[:, None] * np.array(SMOOTH_STRIDES)) % k + 0.5) / k
+    return (2.0 * u - 1.0) * dex
+
 
 MODELS = ("regime", "vbi", "difficulty") + AUX  #: a bundle's tree models, in their stacked order
 
@@ -267,6 +342,8 @@ def _needed(models, second_opinion=False) -> tuple:
         raise ValueError(f"models: each one of {', '.join(MODELS)} (got {sorted(unknown)[0]!r})")
     if want & set(AUX):
         want.add("regime")  # the regime clips the extents
+    if "difficulty" in want:
+        want.add("regime")  # the interval's conformal quantile is the predicted regime's
     if second_opinion:
         want |= {"vbi", "difficulty"}  # the GP's disagreement flag compares with the interval
     return tuple(m for m in MODELS if m in want)
@@ -317,8 +394,45 @@ def _check_meta(meta: dict) -> dict:
         ok = isinstance(src, (int, float)) and not isinstance(src, bool) and np.isfinite(src) and 0 < src < 1e3
         need(ok, f"{key} must be a finite positive number (got {src!r})")
         vals[key] = float(src)
+    vals.update(_check_groups(conf, vals, need))
+    # the centre the quantiles were calibrated on; absent: written before smoothing, so none
+    k, dex = conf.get("smooth_points", 1), conf.get("smooth_dex", 0.0)
+    need(isinstance(k, int) and not isinstance(k, bool) and 1 <= k <= MAX_SMOOTH_POINTS,
+         f"conformal.smooth_points must be a count in [1, {MAX_SMOOTH_POINTS}] (got {k!r})")
+    need(isinstance(dex, (int, float)) and not isinstance(dex, bool) and np.isfinite(dex) and 0 <= dex <= 0.05,
+         f"conformal.smooth_dex must be in [0, 0.05] decades (got {dex!r})")
+    vals.update(smooth_points=k, smooth_dex=float(dex))
     return {"identity": (name, material, meta["core_type"], meta["statistics"]), "domain": domain,
             "fixed": {c: float(x) for c, x in fixed.items()}, **vals}
+
+
+def _check_groups(conf: dict, pooled: dict, need) -> dict:
+    """Per-regime conformal quantiles of ``conformal.groups`` (Mondrian calibration), one entry
+    per regime with ``rows`` (a count), ``q_gbm`` and ``q_gp`` (finite, positive) and ``pooled``
+    (true where the group was too small and carries the pooled quantiles). A bundle written
+    before per-regime calibration has no ``groups``: every regime uses the pooled quantiles, as
+    that bundle was calibrated (marginal coverage only)."""
+    groups = conf.get("groups")
+    if groups is None:
+        return {"q_gbm_by_regime": np.full(len(REGIMES), pooled["q_gbm"]),
+                "q_gp_by_regime": np.full(len(REGIMES), pooled["q_gp"])}
+    need(isinstance(groups, dict) and set(groups) == set(REGIMES),
+         f"conformal.groups must have one entry per regime ({', '.join(REGIMES)})")
+    need(conf.get("groups_by") == "predicted_regime", "conformal.groups_by must be 'predicted_regime'")
+    q = {"q_gbm": np.empty(len(REGIMES)), "q_gp": np.empty(len(REGIMES))}
+    for i, r in enumerate(REGIMES):
+        g = groups[r]
+        need(isinstance(g, dict), f"conformal.groups.{r} is malformed")
+        n = g.get("rows")
+        need(isinstance(n, int) and not isinstance(n, bool) and n >= 0,
+             f"conformal.groups.{r}.rows must be a count (got {n!r})")
+        need(isinstance(g.get("pooled"), bool), f"conformal.groups.{r}.pooled must be true or false")
+        for key in q:
+            v = g.get(key)
+            ok = isinstance(v, (int, float)) and not isinstance(v, bool) and np.isfinite(v) and 0 < v < 1e3
+            need(ok, f"conformal.groups.{r}.{key} must be a finite positive number (got {v!r})")
+            q[key][i] = float(v)
+    return {"q_gbm_by_regime": q["q_gbm"], "q_gp_by_regime": q["q_gp"]}
 
 
 def load_bundle(path) -> SurrogateModel:

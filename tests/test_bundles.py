@@ -50,6 +50,17 @@ CASES = {
     "unknown material": (_bad_meta(lambda m: m.update(material="Kryptonite")), None, "unknown material"),
     "NaN leaf values": (None, lambda a: {**a, "vbi/value": np.full_like(a["vbi/value"], np.nan)}, "NaN"),
     "split on a missing feature": (None, lambda a: {**a, "vbi/feature": a["vbi/feature"] + 100}, "feature"),
+    "negative per-regime quantile": (_bad_meta(lambda m: m["conformal"]["groups"]["both-neutral"].update(q_gbm=-1.0)),
+                                     None, "conformal.groups.both-neutral.q_gbm"),
+    "infinite per-regime GP quantile": (_bad_meta(lambda m: m["conformal"]["groups"]["all-depleted"].update(
+        q_gp=float("inf"))), None, "conformal.groups.all-depleted.q_gp"),
+    "a regime without its quantiles": (_bad_meta(lambda m: m["conformal"]["groups"].pop("core-depleted")), None,
+                                       "one entry per regime"),
+    "group size not a count": (_bad_meta(lambda m: m["conformal"]["groups"]["shell-depleted"].update(rows="many")),
+                               None, "conformal.groups.shell-depleted.rows"),
+    "smoothing out of range": (_bad_meta(lambda m: m["conformal"].update(smooth_points=0)), None,
+                               "conformal.smooth_points"),
+    "unknown grouping": (_bad_meta(lambda m: m["conformal"].update(groups_by="material")), None, "groups_by"),
 }
 
 
@@ -91,3 +102,21 @@ def test_load_refuses_unknown_core_type_and_material():
         radialpn.load("GaAs", "pizza")
     with pytest.raises(radialpn.MaterialError):
         radialpn.load("Kryptonite", "p")
+
+
+def test_bundle_without_per_regime_quantiles_loads_with_the_pooled_one(source, tmp_path):
+    # A bundle written before per-regime calibration (no conformal.groups) stays loadable: every
+    # regime then uses the pooled quantile it was calibrated with, so its intervals are exactly
+    # q_gbm * scale (checked against the per-regime bundle's own scale, 1e-12 V: same arithmetic).
+    d = _copy(source, tmp_path, "old")
+    _rewrite(d, _bad_meta(lambda m: m["conformal"].pop("groups")))
+    old, new = radialpn.load_bundle(d), radialpn.load_bundle(source)
+    design = dict(material="GaAs", core_type="p", core_radius_nm=60.0, shell_thickness_nm=40.0,
+                  core_doping_cm3=1e18, shell_doping_cm3=1e18, dit_cm2eV=1e12)
+    a, b = old.predict(design), new.predict(design)
+    code = list(radialpn.REGIMES).index(b["regime"][0])
+    half_old, half_new = (a["vbi_high_V"] - a["vbi_low_V"]) / 2, (b["vbi_high_V"] - b["vbi_low_V"]) / 2
+    q = json.loads((source / "bundle.json").read_text())["conformal"]
+    assert a["vbi_V"][0] == b["vbi_V"][0]
+    assert half_old[0] * q["groups"][b["regime"][0]]["q_gbm"] == pytest.approx(half_new[0] * q["q_gbm"], abs=1e-12)
+    assert q["groups"][list(radialpn.REGIMES)[code]]["q_gbm"] != q["q_gbm"]  # so the check above can fail

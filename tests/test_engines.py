@@ -70,6 +70,21 @@ def test_confirm_reanswers_flagged_rows_with_the_solver():
     assert all("re-answered" in s for s in conf["engine_note"][flagged])
 
 
+def test_confirm_without_the_gp_uses_the_interval_and_the_regime_probability():
+    # No second opinion: a row is uncertain where its regime probability is below 0.9 or its
+    # 95 % interval is wider than +-20 mV (docs/design-table.md); --confirm re-solves exactly those.
+    d = _uniform_in_domain(400, 6)
+    plain = radialpn.predict(d)
+    ok = plain["status"] == "ok"
+    wide = ok & ((plain["vbi_high_V"] - plain["vbi_low_V"]) / 2 > 0.020)
+    unsure = ok & (plain["regime_prob"] < 0.9)
+    assert wide.any()  # about 5 % of uniform designs have an interval that wide
+    assert plain["confirm_with_solver"][wide | unsure].all()
+    conf = radialpn.predict(d, confirm=True)
+    assert (conf["engine"][wide | unsure] == "solver").all()
+    assert all("re-answered" in s for s in conf["engine_note"][wide])
+
+
 def test_binned_walk_gives_the_plain_walks_leaves():
     # Same leaves, so the same sums: 1e-12 absolute (float64 sums of <= 200 leaf values of
     # order 1, in the same order). Rows placed exactly on split thresholds check the tie rule

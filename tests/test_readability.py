@@ -122,8 +122,9 @@ def test_tables_fit_80_columns_with_units():
 
 
 def test_ask_drops_the_flag_once_verified():
-    # the README's flagged wire: flagged without --verify, settled with it
-    argv = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "80nm", "--shell-thickness", "40nm",
+    # a wire on the edge of the shell's depletion (regime probability 0.85 < 0.9): flagged
+    # without --verify, settled with it
+    argv = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "80nm", "--shell-thickness", "36.5nm",
             "--core-doping", "1e18", "--shell-doping", "2e18", "--dit", "5e12"]
     _, text, _ = run(argv)
     assert "confirm with --verify" in " ".join(text.split())

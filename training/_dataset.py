@@ -101,6 +101,25 @@ def _round_units(spec: DomainSpec, root: Path, split: str, rnd: int, n: int) -> 
     return refinement_points(spec.to_unit(frame), np.asarray(frame["regime"]), n, _seed(spec, f"train-{rnd}"))
 
 
+def _complete(designs: dict, material, n: int) -> dict:
+    """Columns a spec leaves out take the material's default CNL, 300 K and no interlayer."""
+    designs.setdefault("cnl_eV", np.full(n, material.cnl_eV))
+    designs.setdefault("temperature_K", np.full(n, 300.0))
+    designs.setdefault("interlayer_nm", np.zeros(n))
+    return designs
+
+
+def split_designs(spec: DomainSpec, split: str) -> dict:
+    """The designs of a uniform split (``"calibration"`` or ``"test"``) of ``spec``, in row
+    order: fixed by the spec alone (their own seed), so they can be rebuilt without the
+    training set, e.g. to recalibrate a bundle's intervals without refitting it."""
+    if split not in ("calibration", "test"):
+        raise DatasetError(f"split: one of calibration, test (got {split!r})")
+    n = spec.calibration if split == "calibration" else spec.test
+    return _complete(spec.designs(uniform_points(n, len(spec.variables), _seed(spec, split))),
+                     get_material(spec.material), n)
+
+
 def _check_manifest(spec: DomainSpec, root: Path) -> None:
     path = root / "manifest.json"
     want = {"spec_sha256": spec.digest(), "solver_version": SOLVER_VERSION}
@@ -178,11 +197,7 @@ def _build(spec: DomainSpec, root: Path, n_jobs, backend, progress) -> dict:
     for stage in stages:
         tasks = []
         for split, rnd, n in stage:
-            unit = _round_units(spec, root, split, rnd, n)
-            designs = spec.designs(unit)
-            designs.setdefault("cnl_eV", np.full(n, material.cnl_eV))
-            designs.setdefault("temperature_K", np.full(n, 300.0))
-            designs.setdefault("interlayer_nm", np.zeros(n))
+            designs = _complete(spec.designs(_round_units(spec, root, split, rnd, n)), material, n)
             for k, first in enumerate(range(0, n, spec.shard_rows)):
                 path = _shard_path(root, split, rnd, k)
                 sl = slice(first, min(first + spec.shard_rows, n))

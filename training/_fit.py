@@ -8,7 +8,8 @@ Models (scikit-learn, exported to plain arrays):
 - difficulty: a small regressor of log|residual| fitted on 2-fold out-of-fold residuals;
   V_bi intervals are normalised split-conformal, [pred - q s(x), pred + q s(x)] with q the
   ceil((n+1)(1-alpha))-th smallest of |y - pred| / s(x) on the calibration split (Lei et al.,
-  J. Am. Stat. Assoc. 113, 1094 (2018), doi:10.1080/01621459.2017.1307116, sec. 5.2);
+  J. Am. Stat. Assoc. 113, 1094 (2018), doi:10.1080/01621459.2017.1307116, sec. 5.2), one q per
+  predicted regime (Mondrian conformal prediction, ``mondrian_quantiles``);
 - second opinion: a Gaussian process (ConstantKernel * anisotropic Matern 5/2 + WhiteKernel)
   for the same residual on a Sobol prefix of the training set (space-filling), its std rescaled
   by its own conformal quantile;
@@ -36,6 +37,9 @@ REGIME_MODEL = dict(max_iter=45, learning_rate=0.3, max_leaf_nodes=63, max_depth
 VBI_MODEL = dict(max_iter=100, learning_rate=0.1, max_leaf_nodes=127, max_depth=10)
 DIFFICULTY_MODEL = dict(max_iter=30, learning_rate=0.2, max_leaf_nodes=31, max_depth=10)
 AUX_MODEL = dict(max_iter=20, learning_rate=0.35, max_leaf_nodes=63, max_depth=10)
+#: a predicted-regime group needs this many calibration rows for its own conformal quantile
+#: (at 200 rows the coverage of a 95 % quantile has sd ~1.5 %); smaller groups use the pooled one
+MIN_GROUP_ROWS = 200
 GP_FIT_POINTS = 1024  #: hyperparameters are fitted on this Sobol prefix
 GP_MEAN_POINTS = 2048  #: the mean uses this prefix
 GP_STD_POINTS = 512  #: the std uses this prefix (conservative, ~2 MB float64 inverse)
@@ -54,6 +58,52 @@ def conformal_quantile(scores: np.ndarray, level: float = LEVEL) -> float:
     s = np.sort(scores[np.isfinite(scores)])
     k = int(np.ceil((s.size + 1) * level))
     return float(s[min(k, s.size) - 1])
+
+
+def mondrian_quantiles(scores: np.ndarray, groups: np.ndarray, n_groups: int, level: float = LEVEL,
+                       min_rows: int = MIN_GROUP_ROWS) -> tuple:
+    """Per-group split-conformal quantiles (Mondrian conformal prediction).
+
+    Each group g (a category known before the answer, here the bundle's predicted regime)
+    gets the ceil((n_g + 1) level)-th smallest of its own n_g finite ``scores``, which gives
+    coverage >= ``level`` conditionally on the group for exchangeable data (Vovk, Gammerman &
+    Shafer, Algorithmic Learning in a Random World, Springer 2005, doi:10.1007/b106715, ch. 4,
+    Mondrian conformal predictors (section number from memory); first in Vovk, Lindsay,
+    Nouretdinov & Gammerman, "Mondrian confidence machine", technical report, Royal Holloway
+    University of London, 2003). The rank exists only when ceil((n_g + 1) level) <= n_g, and a quantile of
+    a few rows is noisy (its coverage is Beta(k, n_g + 1 - k) distributed, sd ~
+    sqrt(level (1 - level) / n_g)), so a group with fewer than ``min_rows`` finite scores
+    falls back to the pooled quantile of all rows (marginal guarantee only).
+
+    ``groups``: integer codes in [0, n_groups). Returns (pooled q, per-group q [n_groups],
+    per-group row counts [n_groups], per-group own-quantile flags [n_groups]).
+    """
+    scores, groups = np.asarray(scores, dtype=float), np.asarray(groups)
+    fin = np.isfinite(scores)
+    pooled = conformal_quantile(scores, level)
+    q, rows, own = np.full(n_groups, pooled), np.zeros(n_groups, dtype=int), np.zeros(n_groups, dtype=bool)
+    for g in range(n_groups):
+        s = scores[fin & (groups == g)]
+        rows[g] = s.size
+        if s.size >= max(min_rows, 1) and int(np.ceil((s.size + 1) * level)) <= s.size:
+            q[g], own[g] = conformal_quantile(s, level), True
+    return pooled, q, rows, own
+
+
+def conformal_block(tree_scores, gp_scores, groups, level: float = LEVEL, min_rows: int = MIN_GROUP_ROWS,
+                    smoothing: tuple = (1, 0.0)) -> dict:
+    """bundle.json's ``conformal`` block from calibration scores of the trees and the GP,
+    grouped by predicted regime (codes into ``REGIMES``); ``smoothing``: (points, decades) of the
+    V_bi centre the tree scores were computed with (surrogate/_model.py ``SMOOTH_POINTS``)."""
+    q_gbm, qg, rows, own = mondrian_quantiles(tree_scores, groups, len(REGIMES), level, min_rows)
+    q_gp, qp, _, own_gp = mondrian_quantiles(gp_scores, groups, len(REGIMES), level, min_rows)
+    own &= own_gp  # a group uses its own quantiles for both models or the pooled ones for both
+    qg, qp = np.where(own, qg, q_gbm), np.where(own, qp, q_gp)
+    return {"level": level, "q_gbm": q_gbm, "q_gp": q_gp, "calibration_rows": int(np.isfinite(tree_scores).sum()),
+            "groups_by": "predicted_regime", "min_group_rows": int(min_rows),
+            "smooth_points": int(smoothing[0]), "smooth_dex": float(smoothing[1]),
+            "groups": {r: {"rows": int(rows[i]), "q_gbm": float(qg[i]), "q_gp": float(qp[i]),
+                           "pooled": bool(not own[i])} for i, r in enumerate(REGIMES)}}
 
 
 def fit_temperature(raw: np.ndarray, y: np.ndarray) -> float:
@@ -112,8 +162,10 @@ def fit_bundle(spec, data_dir, log=print, seed: int = 0, gp_points=(GP_FIT_POINT
     diff.fit(X, np.log(np.abs(res - oof) + DIFFICULTY_FLOOR_V))
     arrays.update({f"difficulty/{k}": v for k, v in export_hgb(diff).items()})
     scale_c = np.exp(diff.predict(Xc))
-    q_gbm = conformal_quantile(np.abs(resc - reg.predict(Xc)) / scale_c)
-    log(f"V_bi regressor and difficulty model; conformal q = {q_gbm:.3f} ({time.perf_counter() - t0:.1f} s)")
+    tree_scores = np.abs(resc - reg.predict(Xc)) / scale_c
+    group_c = clf.classes_[raw_c.argmax(1)]  # predicted regime (code): the Mondrian taxonomy
+    log(f"V_bi regressor and difficulty model; pooled conformal q = {conformal_quantile(tree_scores):.3f} "
+        f"({time.perf_counter() - t0:.1f} s)")
 
     for target in AUX_TARGETS:
         m = HistGradientBoostingRegressor(**AUX_MODEL, early_stopping=False, random_state=seed)
@@ -138,8 +190,10 @@ def fit_bundle(spec, data_dir, log=print, seed: int = 0, gp_points=(GP_FIT_POINT
     from .._gp import GaussianProcess
 
     gm, gs = GaussianProcess(gp).predict((Xc - mu) / sd)
-    q_gp = conformal_quantile(np.abs(resc - gm) / gs)
-    log(f"Gaussian process: {gpr.kernel_}; conformal q = {q_gp:.3f} ({time.perf_counter() - t0:.1f} s)")
+    # scores of the unsmoothed trees: `train_bundle` recalibrates on the runtime's smoothed centre
+    conformal = conformal_block(tree_scores, np.abs(resc - gm) / gs, group_c)
+    log(f"Gaussian process: {gpr.kernel_}; pooled conformal q = {conformal['q_gp']:.3f} "
+        f"({time.perf_counter() - t0:.1f} s)")
 
     ref = np.flatnonzero(np.isfinite(Xc).all(1))[:64]  # reference rows to verify fast paths at load
     arrays["ref/X"] = Xc[ref]
@@ -149,7 +203,7 @@ def fit_bundle(spec, data_dir, log=print, seed: int = 0, gp_points=(GP_FIT_POINT
         arrays[f"ref/{name}_raw"] = r.T if r.shape[0] != ref.size else r
     meta.update(
         features_version=FEATURES_VERSION, feature_names=list(FEATURE_NAMES), temperature=temperature,
-        conformal={"level": LEVEL, "q_gbm": q_gbm, "q_gp": q_gp, "calibration_rows": int(Xc.shape[0])},
+        conformal=conformal,
         models={"regime": REGIME_MODEL, "vbi": VBI_MODEL, "difficulty": DIFFICULTY_MODEL, "aux": AUX_MODEL,
                 "gp": {"kernel": str(gpr.kernel_), "fit_points": min(gp_fit, base.size),
                        "mean_points": min(gp_mean, base.size), "std_points": min(gp_std, base.size)}},

@@ -5,14 +5,18 @@ from __future__ import annotations
 from pathlib import Path
 
 from .._bundle import read_bundle, write_bundle
-from .._model import SurrogateModel, load_bundle
+from .._model import SurrogateModel
 
 from ._card import render_card
-from ._dataset import build_dataset
+from ._dataset import build_dataset, read_rows
 from ._fit import fit_bundle
-from ._solver import SOLVER_VERSION
+from ._recalibrate import recalibrate_bundle
+from ._solver import SOLVER_VERSION, solve
 from ._spec import load_spec
-from ._validate import validate
+from ._validate import TARGET_MIN_ROWS, score_targeted, targeted_designs, validate
+
+
+VALIDATE_SEED = 20261202  #: fresh designs of the shipped bundles' validation (not the calibration or test seeds)
 
 
 def library_versions() -> dict:
@@ -28,7 +32,7 @@ def library_versions() -> dict:
     return out
 
 
-def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, validate_seed=777,
+def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, validate_seed=VALIDATE_SEED,
                  log=print, progress=None, **fit_options) -> dict:
     """Spec -> dataset (resumable) -> fitted bundle -> validation on fresh solver runs -> card."""
     spec = load_spec(spec_path)
@@ -41,19 +45,45 @@ def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, va
         solver_version=SOLVER_VERSION, spec_sha256=spec.digest(), fitted_with=library_versions(),
     )
     write_bundle(out_dir, meta, arrays, render_card(meta))
-    report = validate(load_bundle(out_dir), validate_rows, validate_seed, n_jobs=n_jobs)
+    # quantiles on the runtime's (smoothed) V_bi centre, from the calibration rows already solved
+    recalibrate_bundle(out_dir, spec_path, solved=read_rows(data_dir, ("calibration",), columns=["vbi_V", "status"]),
+                       log=log)
+    meta = {k: v for k, v in read_bundle(out_dir)[0].items() if k not in ("format", "format_version")}
+    report = validate_bundle(out_dir, validate_rows, validate_seed, n_jobs=n_jobs, targeted=True)
     meta["validation"] = report
     write_bundle(out_dir, meta, arrays, render_card(meta))
     log(f"bundle written to {out_dir}")
     return report
 
 
-def validate_bundle(path, rows=6000, seed=777, n_jobs=-1, write=False) -> dict:
+def validate_bundle(path, rows=6000, seed=777, n_jobs=-1, write=False, targeted=False) -> dict:
     """Validate an existing bundle on fresh solver runs. ``write=True`` stores the report in the
-    bundle (only for a bundle you are building; the front end never does)."""
+    bundle (only for a bundle you are building; the front end never does). ``targeted``: regimes
+    the uniform sample predicts in fewer than ``TARGET_MIN_ROWS`` rows get a targeted check
+    (``targeted_designs``, seed ``seed + 1``) under ``report["targeted"]``."""
     meta, arrays = read_bundle(path)
-    report = validate(SurrogateModel(meta, arrays, path), rows, seed, n_jobs=n_jobs)
+    model = SurrogateModel(meta, arrays, path)
+    report = validate(model, rows, seed, n_jobs=n_jobs)
+    if targeted:
+        rare = rare_regimes(report)
+        if rare:
+            d = targeted_designs(model, rare, seed + 1)
+            report["targeted"] = score_targeted(model, d, solve(d, model.statistics, n_jobs=n_jobs), seed + 1, rare)
     if write:
         meta["validation"] = report
         write_bundle(Path(path), meta, arrays, render_card(meta))
     return report
+
+
+def rare_regimes(report: dict) -> list:
+    """Regimes a validation report's uniform sample predicts in fewer than ``TARGET_MIN_ROWS``
+    rows: too few to judge per-regime coverage to +-2 %."""
+    return [r for r, x in report["coverage_by_predicted_regime"].items() if x["rows"] < TARGET_MIN_ROWS]
+
+
+def recalibrate(spec_path, path, n_jobs=-1, validate_rows=6000, validate_seed=VALIDATE_SEED, log=print) -> dict:
+    """New conformal quantiles for a bundle without refitting (``recalibrate_bundle``: solver runs
+    on the calibration split only), then validation on fresh runs with a targeted check of rare
+    regimes, stored in the bundle with its card. Returns the validation report."""
+    recalibrate_bundle(path, spec_path, n_jobs=n_jobs, log=log)
+    return validate_bundle(path, validate_rows, validate_seed, n_jobs=n_jobs, write=True, targeted=True)
