@@ -283,6 +283,19 @@ class SurrogateModel:
         k, n = off.shape[0], sub.n
         if k <= 1 or n == 0:
             return da["vbi_V"] + residual
+        if n == 1:  # one design: its neighbours through the scalar fast path (same numbers, ~3x faster)
+            near_rows = []
+            for j in range(k):
+                vals = dict(sub.values)
+                for i, c in enumerate(SMOOTH_COLUMNS):
+                    vals[c] = sub.values[c] * 10.0 ** off[j, i]
+                one = features_one(DesignTable(n=1, material=sub.material, p_core=sub.p_core, values=vals,
+                                               status=sub.status), self.statistics)
+                if one is None:
+                    break  # the general path below decides (and keeps the unsmoothed residual)
+                near_rows.append(one[0][0])
+            else:
+                return da["vbi_V"] + self.vbi_forest_.raw(np.array(near_rows))[:, 0].reshape(k, 1).mean(0)
         values = {c: np.tile(v, k) for c, v in sub.values.items()}
         for j, c in enumerate(SMOOTH_COLUMNS):
             values[c] = values[c] * np.repeat(10.0 ** off[:, j], n)

@@ -96,7 +96,8 @@ def test_model_subsets_give_the_full_answer_for_what_they_evaluate(models):
     rows = [r for r in _random_rows(200, 3) if not any(isinstance(v, list) for v in r.values())]  # one table
     full = MODEL.predict(rows)
     part = MODEL.predict(rows, models=models)
-    kept = {"vbi": ["vbi_V"], "difficulty": [], "regime": ["regime", "regime_prob", "confirm_with_solver"],
+    # the interval's conformal quantile is the predicted regime's, so "difficulty" brings the regime
+    kept = {"vbi": ["vbi_V"], "difficulty": ["regime", "regime_prob", "confirm_with_solver"], "regime": ["regime", "regime_prob", "confirm_with_solver"],
             "shell_neutral_nm": ["shell_neutral_nm", "regime", "regime_prob", "confirm_with_solver"]}
     cols = {"vbi0_V", "status", "in_domain", "engine"} | {c for m in models for c in kept[m]}
     if {"vbi", "difficulty"} <= set(models):
