@@ -203,7 +203,9 @@ def cmd_materials(args, console, out) -> int:
         return _errors.OK
     table = Table(title=f"Material table at {t:g} K", title_justify="left")
     for col in ("material", "E_g [eV]", "ε_r [1]", "N_c [cm⁻³]", "N_v [cm⁻³]", "E_cnl − E_v [eV]"):
-        table.add_column(escape(col), justify="right" if col != "material" else "left")
+        # a user material's name (up to 40 characters) folds onto a second line rather than losing its end
+        table.add_column(escape(col), justify="right" if col != "material" else "left",
+                         overflow="fold" if col == "material" else "ellipsis")
     for name, row in data.items():
         table.add_row(name, f"{row['band_gap_eV']:.3f}", f"{row['permittivity_rel']:.3g}", f"{row['nc_cm3']:.2e}",
                       f"{row['nv_cm3']:.2e}", f"{row['cnl_eV']:.3f}")

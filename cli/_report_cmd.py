@@ -70,6 +70,21 @@ def cmd_report(args, console, out) -> int:
     return _errors.OK
 
 
+
+def _tunnel_section(rv) -> str:
+    """The junction's peak field and band-to-band tunnelling estimate from the solver check."""
+    tn = rv.get("tunnelling")
+    if not tn:
+        return ("<p class='note'>The reference solver gave no answer for this design, so there is no "
+                "tunnelling estimate.</p>")
+    risk = tn["at_risk"]
+    verdict = ("<strong>At tunnelling risk</strong>: the estimate exceeds the threshold; an intrinsic interlayer "
+               "(interlayer_nm) or lower dopings would lower the junction field." if risk else
+               "Below the threshold: band-to-band tunnelling is not expected to short the junction.")
+    return (f"<p>Peak junction field {tn['peak_field_V_per_cm']:.3g} V/cm; Kane WKB tunnelling estimate "
+            f"10^{tn['tunnel_log10']:.1f} against the threshold 10^{tn['threshold_log10']:g} "
+            f"(reference solver profile; docs/physics.md). {verdict}</p>")
+
 def _table(rows, header=None, num=()) -> str:
     h = "<tr>" + "".join(f"<th>{escape(c)}</th>" for c in header) + "</tr>" if header else ""
     body = "".join("<tr>" + "".join(f'<td class="num">{c}</td>' if k in num else f"<td>{c}</td>"
@@ -204,9 +219,7 @@ def page(rv) -> str:
         "map": ("Regime map around the design", _map_section(rv)),
         "critical": ("Critical dimensions", _critical_section(rv)),
         "spread": ("Growth-spread yield and its sensitivity", _spread_section(rv)),
-        "tunnelling": ("Tunnelling indicator", f"<p class='note'>radialpn {radialpn.__version__} has no tunnelling "
-                       "indicator yet; this section fills once it exists. Until then judge interband tunnelling "
-                       "across thin, heavily doped junctions separately.</p>"),
+        "tunnelling": ("Tunnelling indicator", _tunnel_section(rv)),
         "caution": ("Before you grow", f"<p class='caution'>{escape(CAUTION)} These are design estimates from the "
                     f"{escape(rv['engine'])} engine ({escape(rv['statistics'])} statistics) and the reference solver; "
                     "confirm them by measurement (e.g. electron-beam-induced current or Kelvin-probe maps of "

@@ -10,6 +10,7 @@ import time
 from . import _questions
 from ._engines import DEFAULT_ENGINE, answer, check_engine, solve
 from ._errors import RadialpnError
+from ._tunnel import TUNNEL_RISK_LOG10
 
 #: run-to-run spreads used when none are given: illustrative values of a typical MOVPE/MBE
 #: process (common practice, not a measurement of any reactor); replace them with your own
@@ -42,7 +43,9 @@ def review(design: dict, spreads: dict | None = None, samples: int = REVIEW_SAMP
     core radius x shell thickness around the design, ``cells`` (nx, ny)), ``critical``
     (``critical_dimensions`` with solver confirmation when ``confirm``), ``spread``
     (``samples`` growth runs with ``spreads``, default ``DEFAULT_SPREADS``), ``tunnelling``
-    (None: radialpn has no tunnelling indicator yet), ``seconds`` per part [s], ``target`` and
+    (from the solver check: ``peak_field_V_per_cm`` [V/cm], ``tunnel_log10`` [1] (Kane's WKB
+    estimate, ``_tunnel``), ``threshold_log10`` and ``at_risk``; None when the solver gives no
+    answer), ``seconds`` per part [s], ``target`` and
     ``target_vbi_V`` [V] (the target as a voltage at the nominal design's V_bi0)."""
     check_engine(engine)
     base = _questions.design_row(design)
@@ -90,6 +93,15 @@ def review(design: dict, spreads: dict | None = None, samples: int = REVIEW_SAMP
     goal = max(fraction_min * v0 if fraction_min is not None else -math.inf,
                vbi_min_V if vbi_min_V is not None else -math.inf)
     return {"design": base, "answer": ans, "target_vbi_V": goal, "check": chk, "profile": prof, "profile_depletion": prof_da, "map": grid,
-            "critical": crit, "spread": spr, "spreads_given": spreads is not None, "tunnelling": None,
+            "critical": crit, "spread": spr, "spreads_given": spreads is not None, "tunnelling": _tunnelling(ref),
             "seconds": seconds, "engine": engine, "statistics": statistics, "ionisation": ionisation,
             "target": _questions.target_text(fraction_min, vbi_min_V)}
+
+
+def _tunnelling(ref) -> dict | None:
+    """The junction's tunnelling indicator from the solver's row (None where it has none)."""
+    field, log10 = float(ref["peak_field_V_per_cm"][0]), float(ref["tunnel_log10"][0])
+    if str(ref["status"][0]) != "ok" or not math.isfinite(field):
+        return None
+    return {"peak_field_V_per_cm": field, "tunnel_log10": log10, "threshold_log10": TUNNEL_RISK_LOG10,
+            "at_risk": bool(math.isfinite(log10) and log10 > TUNNEL_RISK_LOG10)}

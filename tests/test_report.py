@@ -105,7 +105,11 @@ def test_sections_hold_the_library_numbers(sheet):
     assert f"{100 * sp['yield']:.1f} %" in text["spread"] and "5,000" in text["spread"]
     assert "illustrative" in text["spread"]
     assert "confirm the design with measurements" in text["caution"]
-    assert "no tunnelling indicator yet" in text["tunnelling"]
+    ref = radialpn.solve(WIRE)  # the section quotes the solver's own tunnelling columns, to the digits shown
+    assert f"{float(ref['peak_field_V_per_cm'][0]):.3g} V/cm" in text["tunnelling"]
+    assert f"10^{float(ref['tunnel_log10'][0]):.1f}" in text["tunnelling"]
+    risk = float(ref["tunnel_log10"][0]) > radialpn.TUNNEL_RISK_LOG10
+    assert ("At tunnelling risk" in text["tunnelling"]) == risk
 
 
 def test_charts_are_drawn_from_real_arrays(sheet):
