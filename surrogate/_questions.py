@@ -8,6 +8,7 @@ Targets are "V_bi >= fraction_min * V_bi0" [1] or "V_bi >= vbi_min_V" [V] (eithe
 
 from __future__ import annotations
 
+import functools
 import math
 import time
 
@@ -291,7 +292,7 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
 def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_min: float | None = 0.9,
            vbi_min_V: float | None = None, regimes=None, candidates: int = 200_000, top: int = 5, seed: int = 0,
            engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", confirm: bool = True,
-           progress=None) -> dict:
+           progress=None, map_chunks=None) -> dict:
     """The best designs among ``candidates`` random ones under a V_bi target.
 
     ``vary``: column -> (low, high) in the column's unit, drawn uniformly (in log for radii,
@@ -302,7 +303,9 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     Returns ``winners`` (a mapping of columns, best first: the varied columns, ``objective``,
     ``regime``, ``vbi_V``, and ``solver_regime``, ``solver_vbi_V``, ``solver_meets`` when
     confirmed), ``feasible`` (how many candidates met the target), ``candidates``, ``seconds``
-    and ``reason`` (why there is no winner, else "")."""
+    and ``reason`` (why there is no winner, else ""). ``map_chunks``: a ``map(fn, chunks)``
+    replacement that yields ``fn(chunk)`` in order (e.g. on a cluster: the CLI's
+    ``--scheduler``); the candidates and the answer are the same as with the built-in map."""
     check_engine(engine)
     target = _target(fraction_min, vbi_min_V)
     if minimize not in OBJECTIVES:
@@ -333,9 +336,10 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     feasible = 0
     closest = {"fraction": -math.inf, "answered": 0, "status": "", "vbi_ok": 0}
     t0 = time.perf_counter()
-    for s in range(0, n, SEARCH_CHUNK):
-        part = {k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()}
-        res = answer(part, engine, statistics)
+    starts = range(0, n, SEARCH_CHUNK)
+    parts = [{k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()} for s in starts]
+    results = (map_chunks or map)(functools.partial(answer, engine=engine, statistics=statistics), parts)
+    for s, part, res in zip(starts, parts, results):
         ok = _search.meets(res, **target, bound="low" if "vbi_low_V" in res else "value")
         if regimes:
             closest["vbi_ok"] += int(ok.sum())
