@@ -23,7 +23,6 @@ import sys
 import tempfile
 import time
 
-import numpy as np
 
 COPY = """import csv, sys
 with open(sys.argv[1], newline="", encoding="utf-8") as f, open(sys.argv[2], "w", newline="", encoding="utf-8") as g:
@@ -32,6 +31,8 @@ with open(sys.argv[1], newline="", encoding="utf-8") as f, open(sys.argv[2], "w"
 
 
 def write_table(path: str, n: int, seed: int = 7) -> None:
+    import numpy as np
+
     rng = np.random.default_rng(seed)
     mats = np.array(["GaAs", "InP"])
     cols = dict(id=np.char.add("w", np.arange(n).astype(str)), material=mats[rng.integers(0, mats.size, n)],
@@ -76,13 +77,21 @@ def main() -> None:
     ap.add_argument("--engines", nargs="+", default=["depletion", "surrogate"])
     ap.add_argument("--parquet", action="store_true", help="also run Parquet in and out")
     ap.add_argument("--chunk-rows", type=int, default=None)
+    ap.add_argument("--write-table", nargs=2, metavar=("ROWS", "PATH"), help=argparse.SUPPRESS)
+    ap.add_argument("--to-parquet", nargs=2, metavar=("CSV", "PARQUET"), help=argparse.SUPPRESS)
     a = ap.parse_args()
+    if a.write_table:
+        return write_table(a.write_table[1], int(a.write_table[0]))
+    if a.to_parquet:
+        return to_parquet(*a.to_parquet)
     exe = [sys.executable, "-m", "radialpn.cli"]
     print(f"radialpn batch, CSV in and out; {os.cpu_count()} cores; load average {os.getloadavg()[0]:.2f} at the start")
     with tempfile.TemporaryDirectory() as tmp:
         for n in a.rows:
             src = os.path.join(tmp, f"in{n}.csv")
-            write_table(src, n)
+            # tables are made in a child process, so this one stays small: a child's peak memory
+            # (wait4) counts the copy of the parent it starts as
+            subprocess.run([sys.executable, __file__, "--write-table", str(n), src], check=True)
             size = os.path.getsize(src) / 1e6
             copy = run([sys.executable, "-c", COPY, src, os.path.join(tmp, "copy.csv")])
             print(f"  {n:,} rows ({size:.0f} MB): csv-module copy {copy['wall']:.1f} s wall, {copy['cpu']:.1f} s CPU, "
@@ -90,7 +99,7 @@ def main() -> None:
             formats = [("csv", src)]
             if a.parquet:
                 pq_src = os.path.join(tmp, f"in{n}.parquet")
-                to_parquet(src, pq_src)
+                subprocess.run([sys.executable, __file__, "--to-parquet", src, pq_src], check=True)
                 formats.append(("parquet", pq_src))
             for fmt, path in formats:
                 for engine in a.engines:
