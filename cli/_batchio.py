@@ -24,6 +24,10 @@ from . import _errors
 from ._csvio import CHUNK_ROWS, atomic_text, open_table
 
 
+SOLVER_EXTRAS = ("core_majority_ln", "shell_majority_ln", "charge_residual", "surface_accumulation_V",
+                 "peak_field_V_per_cm", "tunnel_log10", "iterations", "solver_version")  #: solver-only outputs
+
+
 def is_parquet(path) -> bool:
     return str(path).lower().endswith((".parquet", ".pq"))
 
@@ -182,14 +186,15 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
         for chunk, res in answers():
             if res is None:
                 res = {c: np.zeros(0, dtype=object) for c in radialpn.OUTPUT_COLUMNS}
-            if out_cols is None:
-                out_cols = [c for c in reserved if c in res]
+            if out_cols is None:  # the auto engine may call the solver in any chunk: its columns always
+                out_cols = [c for c in reserved if c in res or (args.engine == "auto" and c in SOLVER_EXTRAS)]
             if not header_done:
                 sink.header(fields + out_cols)
                 header_done = True
-            missing = [c for c in out_cols if c not in res]
-            for c in missing:  # a column one chunk's answer lacks (auto without solver rows): blank
-                res[c] = np.full(chunk.n, "", dtype=object)
+            for c in out_cols:  # a column this chunk's answer lacks (auto, no solver row here): blank
+                if c not in res:
+                    res[c] = (np.zeros(chunk.n, dtype=np.int64) if c == "iterations" else
+                              np.full(chunk.n, "", dtype=object) if c == "solver_version" else np.full(chunk.n, np.nan))
             sink.write(chunk, res, out_cols)
             st = np.asarray(res["status"])
             ok = st == "ok"
