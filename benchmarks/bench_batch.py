@@ -1,7 +1,7 @@
 """`radialpn batch` benchmark (not a test: prints figures).
 
     python benchmarks/bench_batch.py [--rows 300000 1000000] [--engines depletion surrogate]
-                                     [--parquet] [--chunk-rows 50000]
+                                     [--parquet] [--chunk-rows 20000]
 
 Writes a random design table (GaAs and InP, both core types, so the shipped surrogates answer
 every row; plus a text id column) of each size to a temporary folder, then runs

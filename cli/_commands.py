@@ -47,7 +47,7 @@ def register(sub) -> None:
     batch.add_argument("--second-opinion", action="store_true",
                        help="surrogate engine: add the Gaussian-process columns and flag disagreements (slower)")
     batch.add_argument("--chunk-rows", type=int, default=None, metavar="N",
-                       help="rows read, answered and written at a time (default 50000; bounds memory)")
+                       help="rows read, answered and written at a time (default 20000; bounds memory)")
     batch.add_argument("--scheduler", metavar="ADDRESS",
                        help="answer the chunks on a Dask cluster, e.g. tcp://10.0.0.5:8786 (the cluster extra)")
     batch.set_defaults(handler=cmd_batch)

@@ -19,7 +19,7 @@ DELIMITERS = (",", ";", "\t")
 _DECIMAL_COMMA = re.compile(r"^[-+]?[0-9]+,[0-9]+(?:[eE][-+]?[0-9]+)?$")
 
 
-CHUNK_ROWS = 50_000  #: rows per chunk when a table is streamed (batch): bounds memory
+CHUNK_ROWS = 20_000  #: rows per chunk when a table is streamed (batch): bounds memory (surrogate ~380 MB)
 
 
 def read_table(path: str, reserved=()) -> tuple:

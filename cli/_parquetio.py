@@ -46,7 +46,7 @@ class _ParquetChunk:
         return self._total
 
 
-def open_parquet(path: str, reserved=(), chunk_rows: int = 50_000):
+def open_parquet(path: str, reserved=(), chunk_rows: int = 20_000):
     """(header, chunks) of a Parquet design table; the header checks of ``open_table``."""
     _, pq = require_pyarrow(path)
     try:

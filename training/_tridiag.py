@@ -31,16 +31,17 @@ def solve_tridiagonal(lower, diag, upper, rhs, method: str = "cyclic-reduction")
         return _thomas(lower, diag, upper, rhs)
     if method != "cyclic-reduction":
         raise ValueError(f"method: one of {', '.join(METHODS)} (got {method!r})")
-    a = lower.copy()
-    a[0] = 0.0
-    c = upper.copy()
-    c[-1] = 0.0
-    return _reduce(a, diag, c, rhs)
+    # _reduce never reads lower[0]; upper[N-1] must be zero (the Jacobian's already is)
+    c = upper
+    if np.any(upper[-1] != 0.0):
+        c = upper.copy()
+        c[-1] = 0.0
+    return _reduce(lower, diag, c, rhs)
 
 
 def _reduce(a, b, c, d):
     """One odd-even level: eliminate the odd unknowns from the even equations, solve the half
-    system (recursively), then recover the odd unknowns. a[0] = c[-1] = 0 on entry."""
+    system (recursively), then recover the odd unknowns. c[-1] = 0 on entry; a[0] is not read."""
     n = b.shape[0]
     if n == 1:
         return d / b
