@@ -107,21 +107,25 @@ def open_table(path: str, reserved=(), chunk_rows: int = CHUNK_ROWS) -> tuple:
     except BaseException:
         text.close()
         raise
+    try:
+        check_header(path, header, reserved)
+    except _errors.UsageError:
+        text.close()
+        raise
+    return header, _chunks(path, text, reader, len(header), delim, max(1, int(chunk_rows)))
+
+
+def check_header(path, header, reserved) -> None:
+    """``UsageError`` for a column given twice or named like one of the ``reserved`` outputs."""
     seen = set()
-    problem = None
     for name in header:
         if name in seen:
-            problem = f"{path}: column {name!r} appears twice in the header; give each column once"
-            break
+            raise _errors.UsageError(f"{path}: column {name!r} appears twice in the header; give each column once")
         seen.add(name)
     clash = [c for c in header if c in reserved]
-    if problem is None and clash:
-        problem = (f"{path}: input column {clash[0]!r} has the name of an output column that radialpn "
-                   "writes; rename it so it comes back unchanged")
-    if problem is not None:
-        text.close()
-        raise _errors.UsageError(problem)
-    return header, _chunks(path, text, reader, len(header), delim, max(1, int(chunk_rows)))
+    if clash:
+        raise _errors.UsageError(f"{path}: input column {clash[0]!r} has the name of an output column that radialpn "
+                                 "writes; rename it so it comes back unchanged")
 
 
 def _records(path, reader, n) -> list:

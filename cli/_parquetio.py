@@ -12,6 +12,7 @@ import numpy as np
 from radialpn import INPUT_COLUMNS
 
 from . import _errors
+from ._csvio import check_header
 
 EXTRA = "pip install 'radialpn[parquet]'"
 
@@ -58,15 +59,7 @@ def open_parquet(path: str, reserved=(), chunk_rows: int = 20_000):
     except Exception as exc:  # pyarrow raises ArrowInvalid for a file that is not Parquet
         raise _errors.UsageError(f"{path}: not a readable Parquet file ({str(exc).splitlines()[0]})") from None
     header = list(f.schema_arrow.names)
-    seen = set()
-    for name in header:
-        if name in seen:
-            raise _errors.UsageError(f"{path}: column {name!r} appears twice in the header; give each column once")
-        seen.add(name)
-    clash = [c for c in header if c in reserved]
-    if clash:
-        raise _errors.UsageError(f"{path}: input column {clash[0]!r} has the name of an output column that radialpn "
-                                 "writes; rename it so it comes back unchanged")
+    check_header(path, header, reserved)
     total = f.metadata.num_rows
 
     def chunks():
