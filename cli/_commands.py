@@ -2,11 +2,8 @@
 
 from __future__ import annotations
 
-import contextlib
-import csv
 import json
 import math
-import os
 
 import numpy as np
 from rich.markup import escape
@@ -15,10 +12,9 @@ from rich.table import Table
 from rich.text import Text
 
 import radialpn
-from radialpn import INPUT_COLUMNS, normalize_designs
+from radialpn import normalize_designs
 
 from . import _errors
-from ._csvio import atomic_text, read_table
 from ._designargs import add_design_flags, confirm_flag, design_from_args, engine_flags, flag_hint, progress_bar
 from ._render import CAUTION, answer_table, design_line, verify_line
 
@@ -39,15 +35,21 @@ def register(sub) -> None:
     ask.add_argument("--verify", action="store_true", help="also run the reference solver and compare")
     ask.set_defaults(handler=cmd_ask)
 
-    batch = sub.add_parser("batch", help="answer every row of a CSV design table")
-    batch.add_argument("input", metavar="IN.csv", help="CSV with design-table columns (extra columns kept)")
-    batch.add_argument("-o", "--output", metavar="OUT.csv", help="where to write (default: standard output)")
+    batch = sub.add_parser("batch", help="answer every row of a CSV (or Parquet) design table")
+    batch.add_argument("input", metavar="IN.csv", help="CSV with design-table columns (extra columns kept); "
+                       "a .parquet file is read as Parquet (the parquet extra)")
+    batch.add_argument("-o", "--output", metavar="OUT.csv", help="where to write (default: standard output); "
+                       "a .parquet name writes Parquet")
     engine_flags(batch)
     confirm_flag(batch)
     batch.add_argument("--keep-going", action="store_true",
                        help="exit 0 even when some rows have no answer (their reason is in status)")
     batch.add_argument("--second-opinion", action="store_true",
                        help="surrogate engine: add the Gaussian-process columns and flag disagreements (slower)")
+    batch.add_argument("--chunk-rows", type=int, default=None, metavar="N",
+                       help="rows read, answered and written at a time (default 20000; bounds memory)")
+    batch.add_argument("--scheduler", metavar="ADDRESS",
+                       help="answer the chunks on a Dask cluster, e.g. tcp://10.0.0.5:8786 (the cluster extra)")
     batch.set_defaults(handler=cmd_batch)
 
     mats = sub.add_parser("materials", help="the material table with sources")
@@ -128,65 +130,9 @@ def cmd_ask(args, console, out) -> int:
 
 
 def cmd_batch(args, console, out) -> int:
-    reserved = radialpn.OUTPUT_COLUMNS + EXTRA_OUTPUTS
-    big = os.path.exists(args.input) and os.path.getsize(args.input) > 20_000_000  # ~ a second to parse
-    with console.status(f"reading {args.input}") if big else contextlib.nullcontext():
-        fields, rows = read_table(args.input, reserved)
-    if not set(fields) & {"material", "core_type", "core_radius_nm"}:
-        raise _errors.UsageError(f"{args.input}: no design-table columns in the header (expected e.g. "
-                                 f"{', '.join(INPUT_COLUMNS[:4])}; got {', '.join(fields[:4]) or 'nothing'})")
-    index = {c: k for k, c in enumerate(fields)}
-    designs = {c: [r[index[c]] for r in rows] for c in INPUT_COLUMNS if c in index}
-    if rows:
-        result = answer_with_progress(normalize_designs(designs), args.engine, args.statistics, console,
-                                      second_opinion=args.second_opinion, confirm=args.confirm,
-                                      ionisation=args.ionisation)
-    else:  # a header alone: the answer is the header with its output columns
-        result = {c: np.zeros(0, dtype=object) for c in radialpn.OUTPUT_COLUMNS}
-    out_cols = [c for c in reserved if c in result]
-    header = fields + out_cols
-    writing = console.status(f"writing {len(rows):,} rows") if len(rows) > 200_000 else contextlib.nullcontext()
-    with writing:
-        if args.output in (None, "-"):
-            _write_csv(out, header, rows, result, out_cols)
-        else:
-            with atomic_text(args.output, "-o") as fh:
-                _write_csv(fh, header, rows, result, out_cols)
-    status = result["status"]
-    good = int((status == "ok").sum())
-    counts = {r: int((result["regime"] == r).sum()) for r in radialpn.REGIMES}
-    summary = ", ".join(f"{n} {r}" for r, n in counts.items() if n) or "none"
-    console.print(f"[dim]{len(rows)} rows · {good} answered ({summary}) · {len(rows) - good} with a reason "
-                  f"in status · engine {args.engine}[/]")
-    if good < len(rows):
-        first = int(np.flatnonzero(status != "ok")[0])
-        console.print(f"[dim]first row without an answer: line {first + 2}: {status[first]}[/]")
-        return _errors.OK if args.keep_going else _errors.NO_ANSWER
-    return _errors.OK
+    from ._batchio import run_batch
 
-
-def _column_text(values) -> list:
-    """A result column as CSV text, formatted in one vectorised pass: floats in their shortest
-    round-trip form (as repr), NaN as empty, booleans as true/false."""
-    a = np.asarray(values)
-    if a.dtype.kind == "b":
-        return np.where(a, "true", "false").tolist()
-    if a.dtype.kind == "f":
-        text = a.astype(str)
-        text[np.isnan(a)] = ""
-        return text.tolist()
-    if a.dtype.kind in "iu":
-        return a.astype(str).tolist()
-    return ["" if x is None else str(x) for x in a]
-
-
-def _write_csv(fh, header, rows, result, out_cols):
-    # RFC 4180 line ends: csv then quotes any field holding \r or \n (user text passes through)
-    w = csv.writer(fh, lineterminator="\r\n")
-    w.writerow(header)
-    outs = [_column_text(result[c]) for c in out_cols]
-    for i, r in enumerate(rows):
-        w.writerow(r + [o[i] for o in outs])
+    return run_batch(args, console, out, radialpn.OUTPUT_COLUMNS + EXTRA_OUTPUTS, progress_bar)
 
 
 def cmd_materials(args, console, out) -> int:

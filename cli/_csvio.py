@@ -1,5 +1,5 @@
 """Design tables as files: a strict CSV reader (UTF-8, delimiter sniffed among comma,
-semicolon and tab, every cell kept as text) and atomic writes (a temporary file in the target
+semicolon and tab, every cell kept as text; whole or streamed in chunks of rows) and atomic writes (a temporary file in the target
 folder, renamed into place; removed on any exit, SIGTERM included)."""
 
 from __future__ import annotations
@@ -7,6 +7,7 @@ from __future__ import annotations
 import contextlib
 import csv
 import io
+import itertools
 import os
 import re
 import signal
@@ -18,33 +19,104 @@ DELIMITERS = (",", ";", "\t")
 _DECIMAL_COMMA = re.compile(r"^[-+]?[0-9]+,[0-9]+(?:[eE][-+]?[0-9]+)?$")
 
 
+CHUNK_ROWS = 20_000  #: rows per chunk when a table is streamed (batch): bounds memory (surrogate ~380 MB)
+
+
 def read_table(path: str, reserved=()) -> tuple:
     """(header, rows) of a CSV design table; each row a list of text cells as long as the
     header. Raises ``UsageError`` (one line) for an unreadable, non-UTF-8 or binary file, a
     missing header, a column given twice, a column named like one of ``reserved`` (the
     outputs that would overwrite it) and a row longer than the header."""
+    header, chunks = open_table(path, reserved)
+    rows = []
+    for chunk in chunks:
+        rows.extend(chunk)
+    return header, rows
+
+
+def _bad_byte(path: str) -> tuple:
+    """(offset, value) of the first byte of ``path`` that is not UTF-8, read in blocks."""
+    import codecs
+
+    dec = codecs.getincrementaldecoder("utf-8")()
+    base = 0
+    with open(path, "rb") as fh:
+        while True:
+            block = fh.read(1 << 20)
+            pending = dec.getstate()[0]  # the start of a sequence left from the last block
+            try:
+                dec.decode(block, final=not block)
+            except UnicodeDecodeError as exc:
+                data = pending + block
+                return base - len(pending) + exc.start, data[exc.start]
+            if not block:
+                return base, 0
+            base += len(block)
+
+
+def open_table(path: str, reserved=(), chunk_rows: int = CHUNK_ROWS) -> tuple:
+    """(header, chunks) of a CSV design table, streamed: ``chunks`` yields lists of at most
+    ``chunk_rows`` rows, each a list of text cells as long as the header, in file order. The
+    header is checked at once (same errors as ``read_table``); a bad row, a byte that is not
+    UTF-8 or a NUL raises ``UsageError`` from the iteration when it is reached."""
     try:
-        with open(path, "rb") as fh:
-            data = fh.read()
+        fh = open(path, "rb")
     except OSError as exc:
         raise _errors.UsageError(f"{path}: cannot read ({exc.strerror})") from None
+    text = io.TextIOWrapper(fh, encoding="utf-8-sig", newline="")
+
+    def not_utf8():
+        off, byte = _bad_byte(path)
+        return _errors.UsageError(f"{path}: not UTF-8 text (byte {off} is 0x{byte:02x}); save it as UTF-8 CSV")
+
+    def nul():
+        return _errors.UsageError(f"{path}: holds NUL bytes; expected a text CSV file")
+
     try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise _errors.UsageError(f"{path}: not UTF-8 text (byte {exc.start} is 0x{data[exc.start]:02x}); "
-                                 "save it as UTF-8 CSV") from None
-    if "\x00" in text:
-        raise _errors.UsageError(f"{path}: holds NUL bytes; expected a text CSV file")
-    first = text.split("\n", 1)[0]
+        first = text.readline()
+    except UnicodeDecodeError:
+        text.close()
+        raise not_utf8() from None
+    if "\x00" in first:
+        text.close()
+        raise nul()
     if not first.strip():
+        text.close()
         raise _errors.UsageError(f"{path}: empty file or blank first line (expected a header row with "
                                  "design-table columns)")
     delim = max(DELIMITERS, key=lambda d: (first.count(d), d == ","))
+
+    def blocks():
+        yield [first]
+        try:
+            while True:
+                block = text.readlines(1 << 20)  # ~1 MB of whole lines at a time
+                if not block:
+                    return
+                if "\x00" in "".join(block):
+                    raise nul()
+                yield block
+        except UnicodeDecodeError:
+            raise not_utf8() from None
+
+    # lines are handed to csv in C (chain), so no Python code runs per line or per cell
+    reader = csv.reader(itertools.chain.from_iterable(blocks()), delimiter=delim, strict=True)
     try:
-        rows = list(csv.reader(io.StringIO(text, newline=""), delimiter=delim, strict=True))
-    except csv.Error as exc:
-        raise _errors.UsageError(f"{path}: not a readable CSV file ({exc})") from None
-    header, body = rows[0], rows[1:]
+        header = _records(path, reader, 1)
+        header = header[0] if header else []
+    except BaseException:
+        text.close()
+        raise
+    try:
+        check_header(path, header, reserved)
+    except _errors.UsageError:
+        text.close()
+        raise
+    return header, _chunks(path, text, reader, len(header), delim, max(1, int(chunk_rows)))
+
+
+def check_header(path, header, reserved) -> None:
+    """``UsageError`` for a column given twice or named like one of the ``reserved`` outputs."""
     seen = set()
     for name in header:
         if name in seen:
@@ -54,22 +126,54 @@ def read_table(path: str, reserved=()) -> tuple:
     if clash:
         raise _errors.UsageError(f"{path}: input column {clash[0]!r} has the name of an output column that radialpn "
                                  "writes; rename it so it comes back unchanged")
-    width = len(header)
-    out = []
-    for i, row in enumerate(body):
-        if not row:
-            continue  # a blank line is no design (a line holding "" is a row with one empty cell)
-        if len(row) > width:
-            raise _errors.UsageError(f"{path}: line {i + 2} has {len(row)} cells, the header {width}; "
-                                     "every cell needs a column")
-        out.append(row + [""] * (width - len(row)))
+
+
+def _records(path, reader, n) -> list:
+    """The next ``n`` records of ``reader`` (fewer at the end)."""
+    try:
+        return list(itertools.islice(reader, n))
+    except csv.Error as exc:
+        raise _errors.UsageError(f"{path}: not a readable CSV file ({exc})") from None
+
+
+def _chunks(path, text, reader, width, delim, chunk_rows):
+    """Rows of ``reader`` (after the header) in lists of up to ``chunk_rows``, blank lines left
+    out, short rows padded with empty cells; closes ``text`` at the end."""
+    try:
+        seen = 0  # records read after the header
+        first = True
+        while True:
+            block = _records(path, reader, chunk_rows)
+            if not block and not first:
+                return
+            lens = list(map(len, block))
+            if lens and (min(lens) != width or max(lens) != width):
+                rows = []
+                for i, (row, n) in enumerate(zip(block, lens)):
+                    if n > width:
+                        raise _errors.UsageError(f"{path}: line {seen + i + 2} has {n} cells, the header {width}; "
+                                                 "every cell needs a column")
+                    if n:  # a blank line is no design (a line holding "" is a row with one empty cell)
+                        rows.append(row + [""] * (width - n) if n < width else row)
+                block = rows
+            seen += len(lens)
+            if first:
+                _decimal_commas(path, block, delim)
+                first = False
+            yield block
+            if len(lens) < chunk_rows:
+                return
+    finally:
+        text.close()
+
+
+def _decimal_commas(path, rows, delim):
     if delim == ";":
-        for row in out[:1000]:
+        for row in rows[:1000]:
             for cell in row:
                 if _DECIMAL_COMMA.match(cell.strip()):
                     raise _errors.UsageError(f"{path}: decimal commas ({cell!r}); radialpn reads numbers with a "
                                              "decimal point: export the sheet with '.' as decimal separator")
-    return header, out
 
 
 class _Terminated(BaseException):
@@ -88,9 +192,9 @@ def _open_temp(folder: str):
 
 
 @contextlib.contextmanager
-def atomic_text(target: str, option: str):
-    """Write text to ``target`` all or nothing: yields a file object on a temporary file in the
-    target's folder, renamed onto ``target`` when the block ends normally; on any error, Ctrl-C
+def atomic_text(target: str, option: str, binary: bool = False):
+    """Write text (bytes if ``binary``) to ``target`` all or nothing: yields a file object on a
+    temporary file in the target's folder, renamed onto ``target`` when the block ends normally; on any error, Ctrl-C
     or SIGTERM the temporary file is removed and ``target`` is left as it was (on Linux the
     temporary file has no name until the end, so SIGKILL leaves nothing either)."""
     path = os.path.abspath(target)
@@ -115,7 +219,7 @@ def atomic_text(target: str, option: str):
     except ValueError:  # not the main thread: no handler, the finally clause still cleans up
         previous = None
     try:
-        with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
+        with (os.fdopen(fd, "wb") if binary else os.fdopen(fd, "w", newline="", encoding="utf-8")) as fh:
             yield fh
             fh.flush()
             if tmp is None:  # an unnamed file (O_TMPFILE): give it a name only now, then rename

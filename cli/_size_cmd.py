@@ -52,6 +52,9 @@ def register(sub) -> None:
     se.add_argument("--seed", type=int, default=0)
     se.add_argument("--allow-tunnelling", action="store_true",
                     help="keep candidates whose junction is at tunnelling risk (left out by default)")
+    se.add_argument("--scheduler", metavar="ADDRESS",
+                    help="answer the candidates in partitions on a Dask cluster, e.g. tcp://10.0.0.5:8786 "
+                         "(the cluster extra); same answer as a local run")
     _export_flags(se)
     se.set_defaults(handler=cmd_search)
 
@@ -267,11 +270,21 @@ def cmd_search(args, console, out) -> int:
         fixed.pop(col, None)
     if not vary:
         raise _errors.UsageError("--vary: give at least one free variable, e.g. --vary shell-thickness:2nm:100nm")
+    mapper = None
+    if getattr(args, "scheduler", None):
+        from ._cluster import chunk_mapper
+
+        mapper = chunk_mapper(args.scheduler, console)
     bar, update = progress_bar(console, "searching")
-    with bar:
-        res = radialpn.search(fixed, vary, args.minimize, **target, regimes=args.regime, candidates=args.candidates,
-                              top=args.top, seed=args.seed, engine=args.engine, statistics=args.statistics,
-                              ionisation=args.ionisation, progress=update, avoid_tunnelling=not args.allow_tunnelling)
+    try:
+        with bar:
+            res = radialpn.search(fixed, vary, args.minimize, **target, regimes=args.regime,
+                                  candidates=args.candidates, top=args.top, seed=args.seed, engine=args.engine,
+                                  statistics=args.statistics, ionisation=args.ionisation, progress=update,
+                                  avoid_tunnelling=not args.allow_tunnelling, map_chunks=mapper)
+    finally:
+        if mapper is not None:
+            mapper.close()
     w, n, elapsed = res["winners"], res["candidates"], res["seconds"]
     header = [c for c in list(vary) + list(SEARCH_EXTRA) if c in w]
     rows = [[w[c][k] for c in header] for k in range(w["objective"].size)]

@@ -3,6 +3,7 @@ target, optionally without tunnelling risk, re-checked by the reference solver."
 
 from __future__ import annotations
 
+import functools
 import math
 import time
 
@@ -23,7 +24,7 @@ OBJECTIVES = ("total-radius", "core-radius", "shell-thickness")
 def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_min: float | None = 0.9,
            vbi_min_V: float | None = None, regimes=None, candidates: int = 200_000, top: int = 5, seed: int = 0,
            engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", confirm: bool = True,
-           progress=None, avoid_tunnelling: bool = True, ionisation: str = "auto") -> dict:
+           progress=None, avoid_tunnelling: bool = True, ionisation: str = "auto", map_chunks=None) -> dict:
     """The best designs among ``candidates`` random ones under a V_bi target.
 
     ``vary``: column -> (low, high) in the column's unit, drawn uniformly (in log for radii,
@@ -40,7 +41,9 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     target, the regimes and, with ``avoid_tunnelling``, no risk) when confirmed), ``feasible``
     (how many candidates met the target), ``tunnelling_excluded`` (met it but at tunnelling
     risk), ``tunnelling_unchecked``, ``answered_by`` (engine -> candidates answered),
-    ``candidates``, ``seconds`` and ``reason`` (why there is no winner, else "")."""
+    ``candidates``, ``seconds`` and ``reason`` (why there is no winner, else ""). ``map_chunks``: a
+    ``map(fn, chunks)`` replacement that yields ``fn(chunk)`` in order (e.g. on a cluster: the
+    CLI's ``--scheduler``); the candidates and the answer are the same as with the built-in map."""
     check_engine(engine)
     target = _target(fraction_min, vbi_min_V)
     if minimize not in OBJECTIVES:
@@ -72,9 +75,10 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     engines = {}
     closest = {"fraction": -math.inf, "answered": 0, "status": "", "vbi_ok": 0}
     t0 = time.perf_counter()
-    for s in range(0, n, SEARCH_CHUNK):
-        part = {k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()}
-        res = answer(part, engine, statistics, ionisation=ionisation, models=SEARCH_MODELS)
+    starts = range(0, n, SEARCH_CHUNK)
+    parts = [{k: (v[s:s + SEARCH_CHUNK] if np.ndim(v) else v) for k, v in cand.items()} for s in starts]
+    ask = functools.partial(answer, engine=engine, statistics=statistics, ionisation=ionisation, models=SEARCH_MODELS)
+    for s, part, res in zip(starts, parts, (map_chunks or map)(ask, parts)):
         ok = _search.meets(res, **target, bound="low" if "vbi_low_V" in res else "value")
         if regimes:
             closest["vbi_ok"] += int(ok.sum())

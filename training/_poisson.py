@@ -25,8 +25,8 @@ import numpy as np
 
 from .._constants import Q
 from .._ionisation import unionised
-from .._statistics import occupancy
 
+from ._occupancy import occupancy
 from ._tridiag import solve_tridiagonal
 
 STEP_LIMIT_KT = 10.0  #: largest change of y per node and Newton step, in units of kT
@@ -104,8 +104,9 @@ def residual(y, p, statistics, jacobian=True):
     return G, lower, diag, upper
 
 
-def newton(y0, p, statistics, max_iter=MAX_ITER, tol=Y_TOL):
+def newton(y0, p, statistics, max_iter=MAX_ITER, tol=Y_TOL, tridiagonal="cyclic-reduction"):
     """Solve for y (N, B) from ``y0``. ``p``: dict of per-design arrays, (B,) or (N, B).
+    ``tridiagonal``: the linear solver of each step (``_tridiag.solve_tridiagonal``).
 
     Returns (y, iterations (B,), converged (B,), last max update (B,))."""
     y = y0.copy()
@@ -117,7 +118,7 @@ def newton(y0, p, statistics, max_iter=MAX_ITER, tol=Y_TOL):
     pa, ya = p, y
     for it in range(1, max_iter + 1):
         G, lo, di, up = residual(ya, pa, statistics)
-        dy = solve_tridiagonal(lo, di, up, -G)
+        dy = solve_tridiagonal(lo, di, up, -G, tridiagonal)
         limit = STEP_LIMIT_KT * pa["kT"]
         dy = np.clip(dy, -limit, limit)
         ya = ya + dy

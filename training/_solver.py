@@ -22,6 +22,7 @@ import numpy as np
 from .._constants import K_B_EV, NM, Q
 from .._depletion import prepare, row_status, outputs, material_arrays, solve_pcore
 from .._design import REGIMES, DesignTable, normalize_designs
+from .._errors import DesignError
 from .._ionisation import check_ionisation, ionisation_column, row_dopants, unionised
 from .._profiles import fermi_minus_ev
 from .._roots import solve_bracketed
@@ -31,12 +32,13 @@ from .._validity import beyond_parabolic, penetration_text
 
 from ._grid import graded_grid
 from ._poisson import MAX_ITER, carriers, control_volumes, ionised, newton, residual
+from ._tridiag import METHODS as TRIDIAGONAL_METHODS
 
 #: recorded in every training row; bump when results can change. 1.2: incomplete ionisation (default
 #: "auto": on below 200 K and for deep dopants); rows resolved to full ionisation answer as in 1.1
 SOLVER_VERSION = "1.2"
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
-BATCH = 256  #: designs per Newton batch
+BATCH = 128  #: designs per Newton batch: each working array (NODES x BATCH) stays in a core's L2 cache
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
 H0_MAX_NM = 1.0  #: ... but at most this [nm]
 HMAX_FRACTION = 0.08  #: largest spacing as a fraction of the outer radius
@@ -105,7 +107,8 @@ def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
                 y_core=y_core, y_shell=y_shell, dopants=dop, table=table, incomplete=incomplete)
 
 
-def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, max_iter: int = MAX_ITER) -> dict:
+def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, max_iter: int = MAX_ITER,
+           tridiagonal: str = "cyclic-reduction") -> dict:
     """Solve the designs ``sel`` of the prepared physics ``ph``; returns output arrays (and
     the grids ``r`` [m], solutions ``y`` [eV] and carrier densities if ``profiles``)."""
     pr = {k: v[sel] for k, v in ph["prob"].items()}
@@ -138,7 +141,7 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
         p["NA_ref"] = np.where(inc, p["Nv"] * occupancy(-yc / kt, statistics)[0], p["NA"])
         p["ND_ref"] = np.where(inc, p["Nc"] * occupancy((ys - p["Eg"]) / kt, statistics)[0], p["ND"])
     with np.errstate(all="ignore"):
-        y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter)
+        y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter, tridiagonal=tridiagonal)
         if "core_s" in p and not conv.all():
             _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter)
         out = analyse(y, r, p, a, b, statistics)
@@ -321,7 +324,8 @@ def analyse(y, r, p, a, b, statistics):
 
 
 def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: int = BATCH,
-          n_jobs: int = 1, max_iter: int = MAX_ITER, ionisation: str = "auto") -> dict:
+          n_jobs: int = 1, max_iter: int = MAX_ITER, ionisation: str = "auto",
+          tridiagonal: str = "cyclic-reduction") -> dict:
     """Regime and built-in potential of each design by the reference solver.
 
     ``designs``: as for ``radialpn.deplete``. ``statistics``: ``"fermi-dirac"`` or
@@ -334,9 +338,14 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     and no numbers. ``max_iter``: Newton steps before a design is declared not converged.
     ``ionisation``: ``"auto"`` (default), ``"full"`` or ``"incomplete"`` (docs/physics.md section
     4.1); the column ``ionisation`` says which model each row used.
+    ``tridiagonal``: the linear solver of each Newton step, ``"cyclic-reduction"`` (default) or
+    ``"thomas"`` (the method of solver 1.1, kept for comparison); both give the same answers to
+    rounding (Newton stops on a 1e-9 V update either way).
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)
+    if tridiagonal not in TRIDIAGONAL_METHODS:
+        raise DesignError("tridiagonal", f"one of {', '.join(TRIDIAGONAL_METHODS)}", tridiagonal)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     ph = _physics(table, statistics, ionisation)
     table = ph["table"]
@@ -344,10 +353,11 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     parts = [rows[i:i + batch] for i in range(0, rows.size, batch)]
     workers = (os.cpu_count() or 1) if n_jobs == -1 else max(1, int(n_jobs))
     if workers == 1 or len(parts) <= 1:
-        results = [_chunk(ph, s, statistics, nodes, max_iter=max_iter) for s in parts]
+        results = [_chunk(ph, s, statistics, nodes, max_iter=max_iter, tridiagonal=tridiagonal) for s in parts]
     else:
         with ThreadPoolExecutor(min(workers, len(parts))) as pool:
-            results = list(pool.map(lambda s: _chunk(ph, s, statistics, nodes, max_iter=max_iter), parts))
+            results = list(pool.map(lambda s: _chunk(ph, s, statistics, nodes, max_iter=max_iter,
+                                                     tridiagonal=tridiagonal), parts))
     out = _assemble(table, rows, parts, results)
     out["ionisation"] = np.where(out["status"] == "ok", ionisation_column(table, ph["incomplete"]), "").astype(object)
     return out
