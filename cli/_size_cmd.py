@@ -79,17 +79,22 @@ def _sized(text: str) -> tuple:
     return tuple(dict.fromkeys(cols))
 
 
+def _above_below(col, pair) -> tuple:
+    """The solver's two checks as (above, below) the critical value: ``critical_dimensions`` gives
+    them meeting side first, which for the interlayer (thinner meets) is below."""
+    return (pair[1], pair[0]) if col == "interlayer_nm" else (pair[0], pair[1])
+
+
 def size_rows(res) -> list:
     """One row per critical dimension in ``SIZE_FIELDS`` order (for CSV and JSON); a sized
-    interlayer gives two: ``interlayer_nm`` (the thickest keeping the target; solver values
-    below, above) and ``interlayer_nm_tunnel_free`` (the thinnest out of tunnelling risk)."""
+    interlayer gives two: ``interlayer_nm`` (the thickest keeping the target) and ``interlayer_nm_tunnel_free`` (the thinnest out of tunnelling risk)."""
     rows = []
     for col in (c for c in ("core_radius_nm", "shell_thickness_nm", "interlayer_nm") if c in res):
         r = res[col]
         other = {"core_radius_nm": "shell_thickness_nm"}.get(col, "core_radius_nm" if col != "interlayer_nm"
                                                               else "shell_thickness_nm")
         rows.append([col, r["value_nm"], r["optimistic_nm"], r["conservative_nm"], r["regime"], r["confirmed"],
-                     r["solver_vbi_V"][0], r["solver_vbi_V"][1], res["design"][other], r["reason"], r["engine"]])
+                     *_above_below(col, r["solver_vbi_V"]), res["design"][other], r["reason"], r["engine"]])
         if col == "interlayer_nm":
             rows.append([col + "_tunnel_free", r["tunnel_free_nm"], r["tunnel_free_nm"], r["tunnel_free_nm"], "", None,
                          float("nan"), float("nan"), res["design"][other], r["tunnel_reason"], r["tunnel_engine"]])
@@ -100,9 +105,11 @@ def cmd_size(args, console, out) -> int:
     target = target_from_args(args)
     design = design_from_args(args)
     goal = radialpn.target_text(**target)
-    if args.sweep:
-        return _sweep(args, console, out, design, target, goal)
     sized = _sized(args.sized)
+    if args.sweep:
+        if sized != _sized("core,shell"):
+            raise _errors.UsageError(f"--sized: with --sweep only core,shell (a sweep traces both); got {args.sized}")
+        return _sweep(args, console, out, design, target, goal)
     res = radialpn.critical_dimensions(design, **target, engine=args.engine, statistics=args.statistics,
                                        ionisation=args.ionisation, confirm=not args.no_confirm, sized=sized)
     rows = size_rows(res)

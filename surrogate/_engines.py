@@ -28,14 +28,14 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_
           ionisation: str = "auto") -> dict:
     """Regime and built-in potential of each design by the reference solver: the full nonlinear
     Poisson equation in the cylinder with Fermi-Dirac (or Boltzmann) statistics and surface
-    states. Numpy only; about 3,000 designs/s on 2 cores.
+    states. Numpy only; a few thousand designs/s on 2 cores (benchmarks/bench_solver.py).
 
     ``designs``: as for ``deplete``. ``nodes``: grid nodes per design (default 400, V_bi
     within 0.1 mV of a 4x finer grid). ``n_jobs``: worker threads (-1: one per core). Returns
     the design-table output columns plus the solver's margins (``core_majority_ln``,
     ``shell_majority_ln``), ``charge_residual``, ``iterations``, ``solver_version`` and
-    ``ionisation`` (the model each row used: ``"auto"``, ``"full"`` or ``"incomplete"``
-    chosen by ``ionisation``); see docs/physics.md for the equations and the regime criterion.
+    ``ionisation`` (the model each row used, ``"full"`` or ``"incomplete"``, resolved from the
+    ``ionisation`` argument ``"auto"``, ``"full"`` or ``"incomplete"``; blank without an answer); see docs/physics.md for the equations and the regime criterion.
     """
     from .training._solver import NODES, solve as _solve  # the solver's code lives in training/
 
@@ -161,6 +161,9 @@ def answer(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac
     chunk = max(1000, rate // 4)
     parts = []
     for start in range(0, table.n, chunk):
-        parts.append(run(table.take(slice(start, start + chunk))))
+        rows = np.arange(start, min(start + chunk, table.n))
+        parts.append((rows, run(table.take(rows))))
         progress(min(start + chunk, table.n), table.n)
-    return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
+    # every column any chunk returns (under auto only chunks with a solver row carry the solver's
+    # columns), blank where a chunk has none
+    return _merge(table.n, parts)

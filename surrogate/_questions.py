@@ -176,6 +176,9 @@ def critical_dimensions(design: dict, fraction_min: float | None = 0.9, vbi_min_
     scan = _scan_ranges(base, engine, ranges)
     predict = lambda d: answer(d, engine, statistics, ionisation=ionisation)  # noqa: E731
     if sweep is not None:
+        if tuple(sized) != SIZED:  # a sweep traces both critical dimensions; it sizes nothing else
+            raise DesignError("sized", f"with a sweep only the default {', '.join(SIZED)}; size the interlayer "
+                                       "without a sweep", ", ".join(sized))
         col, lo, hi, log = _axis("sweep", sweep)
         if col in scan:
             raise DesignError("sweep", "sweep a doping, D_it, the neutral level, the temperature or the interlayer", col)

@@ -62,11 +62,8 @@ def critical(predict, base: dict, column: str, lo: float, hi: float, vbi_min=Non
         xs = xs[::-1]
     held = accept or (lambda out, bound: meets(out, vbi_min, fraction_min, bound))
 
-    def scan(bound):
-        out = predict({**base, column: xs})
-        return held(out, bound), out
-
-    ok, out = scan("value")
+    out = predict({**base, column: xs})  # one scan; the interval ends are read from it below
+    ok = held(out, "value")
     fails = np.flatnonzero(~ok)
     res = {"column": column, "monotone": bool(fails.size == 0 or ok[: fails[-1] + 1].sum() == 0)}
     if fails.size == 0:
@@ -83,7 +80,7 @@ def critical(predict, base: dict, column: str, lo: float, hi: float, vbi_min=Non
                 a = m
         res["value"] = float(b)
     for bound, key in (("high", "optimistic"), ("low", "conservative")) if intervals else ():
-        okb, _ = scan(bound)
+        okb = held(out, bound)  # the same scan, read at the interval's end (no second evaluation)
         f = np.flatnonzero(~okb)
         res[key] = float(xs[0]) if f.size == 0 else (float("nan") if f[-1] == xs.size - 1 else float(xs[f[-1] + 1]))
     if not intervals:

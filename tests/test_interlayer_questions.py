@@ -92,6 +92,8 @@ def test_size_interlayer_confirmed_by_the_solver_and_refusals():
     assert np.isnan(thin["value_nm"]) and "no room for an interlayer" in thin["reason"]
     with pytest.raises(radialpn.DesignError, match="sized"):
         radialpn.critical_dimensions(WIRE, sized=("interlayer",))
+    with pytest.raises(radialpn.DesignError, match="sized"):  # a sweep traces core and shell only: no silent drop
+        radialpn.critical_dimensions(WIRE, sized=("interlayer_nm",), sweep=("shell_doping_cm3", 1e17, 1e18))
 
 
 def test_spread_of_the_interlayer():
@@ -122,6 +124,13 @@ def test_cli_design_commands_take_the_interlayer():
                                             "depletion", "--no-confirm"])
     assert code == 0 and "thickest interlayer" in text and "out of tunnelling risk" in " ".join(text.split())
     assert run(["size"] + FLAGS + ["--shell-thickness", "60nm", "--sized", "core,wall"])[0] == 2
+    assert run(["size"] + FLAGS + ["--sized", "interlayer", "--sweep", "shell-doping:1e17:1e18"])[0] == 2
+    # the solver's checks land in the columns that name their side: a thicker interlayer leaves
+    # less doped shell, so V_bi 0.5 nm above the critical value is below V_bi 0.5 nm under it
+    code, _, out = run(["size"] + FLAGS + ["--shell-thickness", "60nm", "--sized", "interlayer", "--engine",
+                                           "depletion", "--json"])
+    il = {d["dimension"]: d for d in json.loads(out)["dimensions"]}["interlayer_nm"]
+    assert code == 0 and il["solver_vbi_above_V"] < il["solver_vbi_below_V"]
     vary = ["--vary", "shell-thickness:5nm:100nm", "--vary", "interlayer:0nm:30nm", "--candidates", "5000",
             "--engine", "depletion"]
     code, text, _ = run(["search"] + FLAGS + vary)

@@ -37,6 +37,9 @@ from ._tridiag import METHODS as TRIDIAGONAL_METHODS
 #: recorded in every training row; bump when results can change. 1.2: incomplete ionisation (default
 #: "auto": on below 200 K and for deep dopants); rows resolved to full ionisation answer as in 1.1
 SOLVER_VERSION = "1.2"
+#: earlier versions whose answers this one reproduces under full ionisation (what training sets use):
+#: a bundle fitted on them is recalibrated and validated as if fitted on this one
+SAME_FULL_IONISATION = ("1.1",)
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
 BATCH = 128  #: designs per Newton batch: each working array (NODES x BATCH) stays in a core's L2 cache
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
@@ -143,7 +146,7 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
     with np.errstate(all="ignore"):
         y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter, tridiagonal=tridiagonal)
         if "core_s" in p and not conv.all():
-            _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter)
+            _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter, tridiagonal)
         out = analyse(y, r, p, a, b, statistics)
     out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc, y_core=yc, y_shell=ys,
                Eg=p["Eg"], tunnel_log10=tunnel_log10(out["peak_field_V_per_m"], p["Eg"], p["Nc"] / 1e6,
@@ -154,7 +157,7 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
     return out
 
 
-def _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter):
+def _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter, tridiagonal="cyclic-reduction"):
     """Designs with incomplete ionisation that Newton did not converge from the depletion start
     (cold, lightly doped wires with a deep level, where the ionised share switches within a few
     kT): solved again, one by one, by continuation in the dopants' localised share s, scaled from
@@ -168,7 +171,7 @@ def _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter):
         while ok:
             target = min(1.0, frac + step)
             stage = dict(sub, core_s=sub["core_s"] * target, shell_s=sub["shell_s"] * target)
-            yn, it, cv, ls = newton(yc, stage, statistics, max_iter=max_iter)
+            yn, it, cv, ls = newton(yc, stage, statistics, max_iter=max_iter, tridiagonal=tridiagonal)
             total += int(it[0])
             if cv[0]:
                 yc, frac = yn, target
