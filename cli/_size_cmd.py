@@ -101,6 +101,17 @@ def size_rows(res) -> list:
     return rows
 
 
+
+def _check_text(r, no_confirm: bool, reasons: list) -> Text:
+    """The solver check's cell of one sized dimension (its reason, if any, joins ``reasons``)."""
+    if r["confirmed"] is not None:
+        return Text("✓ confirmed" if r["confirmed"] else "✗ not confirmed",
+                    style="#3aa876" if r["confirmed"] else "bold #d9534f")
+    if r["reason"]:
+        reasons.append(r["reason"])
+        return Text("not checked: see below")
+    return Text("not checked (--no-confirm)" if no_confirm else "")
+
 def cmd_size(args, console, out) -> int:
     target = target_from_args(args)
     design = design_from_args(args)
@@ -141,13 +152,7 @@ def cmd_size(args, console, out) -> int:
             rng = "no interval" if args.engine != "surrogate" else F.nm(r["value_nm"])
         else:
             rng = F.nm_range(r["optimistic_nm"], r["conservative_nm"])
-        check = Text("not checked (--no-confirm)" if args.no_confirm else "")
-        if r["confirmed"] is not None:
-            check = Text("✓ confirmed" if r["confirmed"] else "✗ not confirmed",
-                         style="#3aa876" if r["confirmed"] else "bold #d9534f")
-        elif r["reason"]:
-            check = Text("not checked: see below")
-            reasons.append(r["reason"])
+        check = _check_text(r, args.no_confirm, reasons)
         t.add_row(label, Text(F.nm(r["value_nm"]), style="bold"), rng, regime_text(r["regime"]), check)
     if "interlayer_nm" in res:
         _interlayer_rows(t, res, base, args, reasons)
@@ -181,13 +186,7 @@ def _interlayer_rows(t, res, base, args, reasons):
         t.add_row(label, Text("none", style="bold #d9534f"), f"{F.nm(lo, False)}–{F.nm(hi)} scanned", "", "see why below")
         reasons.append(r["reason"])
     else:
-        check = Text("not checked (--no-confirm)" if args.no_confirm else "")
-        if r["confirmed"] is not None:
-            check = Text("✓ confirmed" if r["confirmed"] else "✗ not confirmed",
-                         style="#3aa876" if r["confirmed"] else "bold #d9534f")
-        elif r["reason"]:
-            check = Text("not checked: see below")
-            reasons.append(r["reason"])
+        check = _check_text(r, args.no_confirm, reasons)
         ok_range = math.isfinite(r["optimistic_nm"]) and r["optimistic_nm"] != r["conservative_nm"]
         t.add_row(label, Text(F.nm(r["value_nm"]), style="bold"),
                   F.nm_range(r["conservative_nm"], r["optimistic_nm"]) if ok_range else "no interval",

@@ -94,3 +94,21 @@ def solve(NA, ND, a, R, eps_r, Eg, dp, dn, Dit, Ecnl, b=None):
     """As ``solve_full``, returning (regime, V_bi [V])."""
     regime, vbi, _ = solve_full(NA, ND, a, R, eps_r, Eg, dp, dn, Dit, Ecnl, b)
     return regime, vbi
+
+
+def design_row(d, material, temperature_K=300.0):
+    """``solve_full`` on one design-table row ``d`` (mapping of its columns; ``interlayer_nm``
+    optional) of ``material`` (a radialpn Material: only its tabulated constants are read), in
+    the p-core frame by hand with Boltzmann bulk levels: (regime, V_bi [V], peak field [V/m])."""
+    kt = 1.380649e-23 * temperature_K / 1.602176634e-19  # kT [eV] (CODATA 2018 exact constants)
+    p = d["core_type"] == "p"
+    Eg = float(material.band_gap(temperature_K))
+    nc, nv = material.nc(temperature_K), material.nv(temperature_K)
+    core_dos, shell_dos = (nv, nc) if p else (nc, nv)
+    dp = kt * math.log(core_dos / d["core_doping_cm3"])
+    dn = kt * math.log(shell_dos / d["shell_doping_cm3"])
+    cnl = material.cnl_eV if p else Eg - material.cnl_eV
+    a = d["core_radius_nm"] * 1e-9
+    return solve_full(d["core_doping_cm3"] * 1e6, d["shell_doping_cm3"] * 1e6, a, a + d["shell_thickness_nm"] * 1e-9,
+                      material.permittivity_rel, Eg, dp, dn, d["dit_cm2eV"] * 1e4, cnl,
+                      b=a + d.get("interlayer_nm", 0.0) * 1e-9)

@@ -20,17 +20,8 @@ KT = Boltzmann * 300.0 / Q  # kT [eV] at 300 K, CODATA via scipy.constants
 
 def _reference_row(d):
     """tests/reference_depletion.py on one design row (p-core frame by hand, Boltzmann levels)."""
-    m = get_material(d["material"])
-    p = d["core_type"] == "p"
-    Eg = float(m.band_gap(300.0))
-    core_dos, shell_dos = (m.nv(300.0), m.nc(300.0)) if p else (m.nc(300.0), m.nv(300.0))
-    dp = KT * math.log(core_dos / d["core_doping_cm3"])
-    dn = KT * math.log(shell_dos / d["shell_doping_cm3"])
-    cnl = m.cnl_eV if p else Eg - m.cnl_eV
-    a = d["core_radius_nm"] * 1e-9
-    return reference_depletion.solve_full(d["core_doping_cm3"] * 1e6, d["shell_doping_cm3"] * 1e6, a,
-                                          a + d["shell_thickness_nm"] * 1e-9, m.permittivity_rel, Eg, dp, dn,
-                                          d["dit_cm2eV"] * 1e4, cnl, b=a + d["interlayer_nm"] * 1e-9)
+    out = reference_depletion.design_row(d, get_material(d["material"]))
+    return out
 
 
 def test_interlayer_agrees_with_independent_scipy_solver():
