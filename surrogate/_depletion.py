@@ -36,17 +36,18 @@ V_bi = max over the shell of psi - min over the core of psi.
 
 from __future__ import annotations
 
-import os
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
 from ._constants import CM2_TO_M2, CM3_TO_M3, EPS0, K_B_EV, NM, Q
 from ._design import REGIMES, DesignTable, categories, normalize_designs
+from ._errors import DesignError
+from ._ionisation import check_ionisation, ionisation_column, localised_share, row_dopants
 from ._materials import get_material
 from ._roots import solve_bracketed
-from ._ionisation import check_ionisation, ionisation_column, localised_share, row_dopants
 from ._statistics import check_statistics, occupancy, reduced_level
+from ._trees import threads as worker_threads
 from ._tunnel import tunnel_log10
 from ._validity import beyond_parabolic, penetration_text
 
@@ -348,7 +349,7 @@ def row_status(table: DesignTable, prob, sol, out, cnl, validity: bool = False):
 
 
 CHUNK_ROWS = 1 << 16  #: rows per work unit: keeps temporaries in cache
-THREADS = min(os.cpu_count() or 1, 8)  #: worker threads for large batches (numpy frees the GIL)
+MAX_THREADS = 256  #: the most worker threads ``deplete`` takes
 
 
 def deplete_table(table: DesignTable, statistics: str, ionisation: str = "full", validity: bool = True) -> dict:
@@ -395,7 +396,7 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     ``designs``: mapping of design-table column -> array or scalar, a list of row dicts, or a
     pandas DataFrame (docs/design-table.md names and units). ``statistics``: ``"fermi-dirac"`` or
     ``"boltzmann"`` for the bulk Fermi levels. ``threads``: worker threads for large batches
-    (default: ``THREADS``). Returns a mapping of the output columns of the design table (docs/design-table.md) (numpy
+    (default: ``radialpn.worker_threads()``: $RADIALPN_THREADS, $OMP_NUM_THREADS or the cores this process may run on). Returns a mapping of the output columns of the design table (docs/design-table.md) (numpy
     arrays, one entry per input row, NaN and regime "" where ``status`` is not "ok") plus
     continuous boundary margins: ``core_margin`` (r_p/a where the core keeps a neutral region;
     below zero, -sqrt(dV / (q N a^2 / 4 eps)) where it is emptied with its potential dV short
@@ -412,12 +413,15 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)
+    if threads is not None and (isinstance(threads, bool) or not isinstance(threads, (int, np.integer))
+                                or not 1 <= threads <= MAX_THREADS):
+        raise DesignError("threads", f"a whole number in [1, {MAX_THREADS}]", threads)
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     if table.n <= CHUNK_ROWS:
         return deplete_table(table, statistics, ionisation)
     parts = [slice(i, min(i + CHUNK_ROWS, table.n)) for i in range(0, table.n, CHUNK_ROWS)]
     work = lambda sl: deplete_table(table.take(sl), statistics, ionisation)  # noqa: E731
-    nthreads = THREADS if threads is None else max(1, int(threads))
+    nthreads = worker_threads(threads)
     if nthreads > 1:
         with ThreadPoolExecutor(nthreads) as pool:
             results = list(pool.map(work, parts))

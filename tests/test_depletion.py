@@ -224,3 +224,14 @@ def test_accumulating_surface_is_reported_not_answered():
                        core_doping_cm3=1e17, shell_doping_cm3=1e17, dit_cm2eV=1e12))
     assert out["status"][0].startswith("surface accumulates") and math.isnan(out["vbi_V"][0])
 
+
+
+@pytest.mark.parametrize("bad", [0, -2, 1.5, True, "2", 10_000])
+def test_thread_count_is_checked(bad):
+    # one validation layer: a thread count outside [1, 256] is an error naming the field, never
+    # a silent 1 (common practice for a worker-count argument)
+    d = dict(material="GaAs", core_type="p", core_radius_nm=50, shell_thickness_nm=50, core_doping_cm3=1e18,
+             shell_doping_cm3=1e18, dit_cm2eV=1e12)
+    with pytest.raises(radialpn.DesignError, match="threads"):
+        radialpn.deplete(d, threads=bad)
+    assert radialpn.deplete(d, threads=2)["status"][0] == "ok"
