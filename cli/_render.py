@@ -76,6 +76,9 @@ def answer_table(row: dict, verified: bool = False) -> Table:
         t.add_row("second opinion (GP)", f"{F.volts(row['vbi_gp_V'])}  [{F.volts(row['vbi_gp_low_V'], False)}, "
                   f"{F.volts(row['vbi_gp_high_V'])}]")
     t.add_row("bulk V_bi0", F.volts(row["vbi0_V"]))
+    if row.get("ionisation"):  # the dopant model the row was answered with (docs/physics.md 4.1)
+        t.add_row("dopant ionisation", "incomplete (the bulk levels, so V_bi0, count ionised dopants only)"
+                  if row["ionisation"] == "incomplete" else "full")
     t.add_row("core neutral radius", f"{F.nm(row['core_neutral_radius_nm'])} of {F.nm(row['core_radius_nm'])}")
     t.add_row("shell neutral thickness", f"{F.nm(row['shell_neutral_nm'])} of {F.nm(row['shell_thickness_nm'])}")
     t.add_row("surface band bending", F.volts(row["surface_bending_V"]))

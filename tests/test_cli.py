@@ -235,3 +235,14 @@ def test_each_command_loads_its_own_module_only():
     assert commands(build_parser()) == set(COMMANDS)
     for name in COMMANDS:
         assert name in commands(build_parser(name))
+
+
+def test_ask_says_which_dopant_ionisation_answered():
+    # GaN:Mg is ~0.17 eV deep (docs/physics.md 4.1), so the default rule answers it with
+    # incomplete ionisation at 300 K; the shallow GaAs dopants at 300 K with full ionisation.
+    gan = ["ask", "--material", "GaN", "--core-type", "p", "--core-radius", "100nm", "--shell-thickness", "50nm",
+           "--core-doping", "3e18", "--shell-doping", "1e18", "--dit", "1e12", "--engine", "depletion"]
+    code, text, _ = run(gan)
+    assert code == 0 and "dopant ionisation" in text and "incomplete" in text
+    code, text, _ = run(gan[:2] + ["GaAs"] + gan[3:])
+    assert code == 0 and "dopant ionisation" in text and "incomplete" not in text
