@@ -1,0 +1,60 @@
+"""Regime accuracy of the shipped surrogates away from the regime boundaries (issue 11's goal:
+>= 99.9 % outside the band of designs within 1 % of a boundary), with the V_bi errors beside.
+
+For each bundle: ``--designs`` fresh designs drawn uniformly over its domain (log for sizes,
+dopings and D_it, as the specs sample them; a seed no bundle was fitted or calibrated on), the
+reference solver as judge. A design lies in the 1 % band when moving any one of core radius,
+shell thickness, the two dopings or D_it by +-1 % changes the solver's regime. Prints, per
+bundle, the regime accuracy over all rows and outside the band, and the V_bi mean and 99th
+percentile error [mV]. Design estimates judged against the solver, not against measurements.
+
+    python benchmarks/accuracy_band.py [--designs 6000] [--seed 20261203]
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import numpy as np
+
+import radialpn
+from radialpn.training import solve
+
+SCALED = ("core_radius_nm", "shell_thickness_nm", "core_doping_cm3", "shell_doping_cm3", "dit_cm2eV")
+BAND = 0.01  #: relative step that defines the boundary band
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--designs", type=int, default=6000)
+    ap.add_argument("--seed", type=int, default=20261203)
+    a = ap.parse_args()
+    rng = np.random.default_rng(a.seed)
+    for name, material, core_type, _ in radialpn.available():
+        model = radialpn.load(material, core_type)
+        d = {"material": material, "core_type": core_type}
+        for col, (lo, hi) in model.domain.items():
+            linear = col in ("cnl_eV", "temperature_K")
+            d[col] = rng.uniform(lo, hi, a.designs) if linear else 10 ** rng.uniform(np.log10(lo), np.log10(hi),
+                                                                                         a.designs)
+        t0 = time.perf_counter()
+        ref = solve(d, n_jobs=-1)
+        sur = radialpn.predict(d, engine="surrogate")
+        stable = np.ones(a.designs, dtype=bool)
+        for col in SCALED:
+            for f in (1 - BAND, 1 + BAND):
+                stable &= solve({**d, col: d[col] * f}, n_jobs=-1)["regime"] == ref["regime"]
+        ok = (ref["status"] == "ok") & (sur["status"] == "ok")
+        out = ok & stable
+        right = sur["regime"] == ref["regime"]
+        err = np.abs(sur["vbi_V"][ok] - ref["vbi_V"][ok]) * 1e3
+        print(f"{name}: {ok.sum():,} rows answered by both; regime {right[ok].mean():.3%}; outside the "
+              f"{BAND:.0%} band ({out.sum():,} rows, {1 - out.sum() / max(ok.sum(), 1):.1%} in the band) "
+              f"{right[out].mean():.3%} ({(~right[out]).sum()} wrong; goal >= 99.9 %); V_bi error mean "
+              f"{err.mean():.2f} mV, p99 {np.percentile(err, 99):.2f} mV (goals 1 and 5 mV); "
+              f"{time.perf_counter() - t0:.0f} s", flush=True)
+
+
+if __name__ == "__main__":
+    main()
