@@ -239,6 +239,21 @@ def register_material(material: Material) -> None:
     _registry[material.name.lower()] = material
 
 
+def is_builtin(name: str) -> bool:
+    """True for a material of the built-in table (its definition cannot change at run time)."""
+    return str(name).lower() in _BUILTIN_NAMES
+
+
+def material_parameters(material: Material) -> dict:
+    """The numeric fields of a material, JSON-ready (NaN as None): what a bundle records of the
+    material it was trained for, and checks again when it is loaded."""
+    out = {}
+    for key in (*_REQUIRED, *_OPTIONAL):
+        v = float(getattr(material, key))
+        out[key] = None if v != v else v
+    return out
+
+
 def material_from_dict(name: str, values: dict) -> Material:
     """Build a ``Material`` from a mapping of the field names of ``Material``, checking each
     against its allowed range. ``sources`` (a mapping) is optional but recommended."""

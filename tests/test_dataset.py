@@ -46,7 +46,12 @@ def built(tmp_path_factory):
 
 @pytest.mark.parametrize("patch,fragment", [
     ({"variables": {"core_radius_nm": {"min": 300, "max": 10}}}, "variables.core_radius_nm: need 1 <= min < max"),
-    ({"variables": {"core_radius_nm": {"min": 10, "max": 300, "transform": "cubic"}}}, "transform: log or linear"),
+    ({"variables": {"core_radius_nm": {"min": 10, "max": 300, "transform": "cubic"}}}, "transform: log, linear or shifted-log"),
+    ({"variables": {"dit_cm2eV": {"min": 0, "max": 1e14, "transform": "log"}}}, "shifted-log takes min = 0"),
+    ({"variables": {"dit_cm2eV": {"min": 0, "max": 1e14, "transform": "shifted-log"}}}, "variables.dit_cm2eV.offset: required"),
+    ({"variables": {"dit_cm2eV": {"min": 1e10, "max": 1e14, "transform": "log", "offset": 1e10}}}, "only for transform"),
+    ({"bundle": {"name": "t", "material": "GaAs", "core_type": "p", "seed": 1, "ionisation": "partial"}},
+     "bundle.ionisation: full or auto"),
     ({"variables": {"wire_colour": {"min": 1, "max": 2}}}, "variables: 'wire_colour' is not a numeric design-table column"),
     ({"bundle": {"name": "t", "material": "GaAs", "core_type": "x", "seed": 1}}, "bundle.core_type: must be p or n"),
     ({"sizes": {"train": 5}}, "sizes.train: allowed range [100, 1e+08]"),
@@ -64,6 +69,22 @@ def test_spec_errors_name_the_key(patch, fragment):
     with pytest.raises(SpecError) as err:
         spec_from_dict(data)
     assert fragment in str(err.value) and "\n" not in str(err.value)
+
+
+def test_shifted_log_reaches_zero_and_round_trips():
+    # D_it from 0: x + offset s is log-uniform, so u = 0 gives exactly min = 0 and u = 1 gives
+    # max; to_unit inverts from_unit (1e-12: a float64 log/exp round trip); and x = 2 s sits at
+    # u = log10(3) / log10((max + s) / s) by the transform's definition (1e-12 relative)
+    data = {**BASE, "variables": {**BASE["variables"],
+                                  "dit_cm2eV": {"min": 0, "max": 1e14, "transform": "shifted-log", "offset": 1e10}}}
+    var = [v for v in spec_from_dict(data).variables if v.name == "dit_cm2eV"][0]
+    u = np.linspace(0, 1, 1001)
+    x = var.from_unit(u)
+    assert x[0] == 0.0 and x[-1] == pytest.approx(1e14, rel=1e-12) and (np.diff(x) > 0).all()
+    np.testing.assert_allclose(var.to_unit(x), u, rtol=0, atol=1e-12)
+    assert var.to_unit(2e10) == pytest.approx(np.log10(3) / np.log10((1e14 + 1e10) / 1e10), rel=1e-12)
+    # a spec without the new keys keeps its digest (bundles built before them still recalibrate)
+    assert "ionisation" not in spec().to_dict() and all("offset" not in v for v in spec().to_dict()["variables"])
 
 
 def test_rows_complete_with_version_and_status(built):

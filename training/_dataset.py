@@ -27,7 +27,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import INPUT_COLUMNS, OUTPUT_COLUMNS, RadialpnError, get_material
+from .. import INPUT_COLUMNS, OUTPUT_COLUMNS, RadialpnError, get_material, register_material
+from .._materials import is_builtin
 
 from ._sampling import refinement_points, sobol_points, uniform_points
 from ._solver import SOLVER_VERSION, solve
@@ -68,11 +69,14 @@ def _fmt(x) -> str:
     return str(x.item() if hasattr(x, "item") else x)
 
 
-def solve_shard(designs: dict, statistics: str) -> dict:
-    """Worker task: solve one shard (single process, no nested parallelism). Full ionisation:
-    the surrogates are trained on it (their features come from the fully ionised depletion
-    engine, and ``_engines`` refuses them rows whose resolved model is incomplete)."""
-    return solve(designs, statistics, n_jobs=1, ionisation="full")
+def solve_shard(designs: dict, statistics: str, ionisation: str = "full", material=None) -> dict:
+    """Worker task: solve one shard (single process, no nested parallelism), with the spec's
+    dopant ionisation model (the bundle's features use the same, and a bundle refuses rows that
+    the caller's model resolves differently). ``material``: a user ``Material`` to register
+    first (a worker process does not inherit the parent's user materials)."""
+    if material is not None:
+        register_material(material)
+    return solve(designs, statistics, n_jobs=1, ionisation=ionisation)
 
 
 def _write_shard(path: Path, split: str, rnd: int, first: int, designs: dict, out: dict) -> None:
@@ -210,7 +214,8 @@ def _build(spec: DomainSpec, root: Path, n_jobs, backend, progress) -> dict:
             progress(written, done, total)
         if not tasks:
             continue
-        jobs = (delayed(_tag)(i, solve_shard, t[4], spec.statistics) for i, t in enumerate(tasks))
+        user = None if is_builtin(material.name) else material
+        jobs = (delayed(_tag)(i, solve_shard, t[4], spec.statistics, spec.ionisation, user) for i, t in enumerate(tasks))
         runner = Parallel(n_jobs=n_jobs, backend=backend, return_as="generator_unordered")
         for i, out in runner(jobs):
             path, split, rnd, first, part = tasks[i]

@@ -7,10 +7,12 @@ Example (``models/specs/gaas-pcore.toml``)::
     material = "GaAs"
     core_type = "p"
     statistics = "fermi-dirac"
+    ionisation = "auto"    # "full" (default) or "auto": the solver's and the features' dopant model
     seed = 20261201
 
-    [variables]            # sampled: min, max, transform = "log" | "linear"
+    [variables]            # sampled: min, max, transform = "log" | "linear" | "shifted-log"
     core_radius_nm = { min = 10, max = 300, transform = "log" }
+    dit_cm2eV = { min = 0, max = 1e14, transform = "shifted-log", offset = 1e10 }
     ...
 
     [fixed]                # design-table columns held constant
@@ -35,6 +37,7 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 
 from .. import INPUT_COLUMNS, NUMERIC_COLUMNS, RadialpnError, get_material
+from .._materials import is_builtin, material_parameters
 from .._statistics import STATISTICS
 from .._textfile import read_table_file
 
@@ -48,19 +51,26 @@ class Variable:
     name: str
     lo: float
     hi: float
-    transform: str  # "log" or "linear"
+    transform: str  # "log", "linear" or "shifted-log"
+    #: "shifted-log": x + offset is log-uniform, so min may be 0 (D_it of a passivated surface)
+    #: and designs thin out linearly below ``offset`` [unit of the column]
+    offset: float = 0.0
 
     def from_unit(self, u):
         """Map points of [0, 1] to the variable's range [unit of the column]."""
         u = np.asarray(u, dtype=float)
-        if self.transform == "log":
-            return 10.0 ** (np.log10(self.lo) + u * (np.log10(self.hi) - np.log10(self.lo)))
+        if self.transform in ("log", "shifted-log"):
+            s = self.offset if self.transform == "shifted-log" else 0.0
+            lo, hi = np.log10(self.lo + s), np.log10(self.hi + s)
+            return np.clip(10.0 ** (lo + u * (hi - lo)) - s, self.lo, self.hi)
         return self.lo + u * (self.hi - self.lo)
 
     def to_unit(self, x):
         x = np.asarray(x, dtype=float)
-        if self.transform == "log":
-            return (np.log10(x) - np.log10(self.lo)) / (np.log10(self.hi) - np.log10(self.lo))
+        if self.transform in ("log", "shifted-log"):
+            s = self.offset if self.transform == "shifted-log" else 0.0
+            lo, hi = np.log10(self.lo + s), np.log10(self.hi + s)
+            return (np.log10(x + s) - lo) / (hi - lo)
         return (x - self.lo) / (self.hi - self.lo)
 
 
@@ -73,6 +83,7 @@ class DomainSpec:
     seed: int
     variables: tuple
     fixed: dict = field(default_factory=dict)
+    ionisation: str = "full"  #: "full" or "auto" (``radialpn._ionisation``)
     train: int = 200000
     refine_rounds: int = 2
     refine_fraction: float = 0.4
@@ -82,7 +93,13 @@ class DomainSpec:
 
     def to_dict(self) -> dict:
         d = asdict(self)
-        d["variables"] = [asdict(v) for v in self.variables]
+        # keys at their defaults are left out, so specs written before them keep their digests
+        d["variables"] = [{k: x for k, x in asdict(v).items() if k != "offset" or v.transform == "shifted-log"}
+                          for v in self.variables]
+        if self.ionisation == "full":
+            del d["ionisation"]
+        if not is_builtin(self.material):  # a user material: its definition is part of what was built
+            d["material_parameters"] = material_parameters(get_material(self.material))
         return d
 
     def digest(self) -> str:
@@ -136,6 +153,9 @@ def spec_from_dict(data: dict) -> DomainSpec:
     statistics = str(b.get("statistics", "fermi-dirac")).lower()
     if statistics not in STATISTICS:
         raise SpecError(f"bundle.statistics: one of {', '.join(STATISTICS)} (got {statistics!r})")
+    ionisation = str(b.get("ionisation", "full")).lower()
+    if ionisation not in ("full", "auto"):
+        raise SpecError(f"bundle.ionisation: full or auto (got {ionisation!r})")
     seed = _need(b, "seed", "bundle", int)
     if isinstance(seed, bool) or not 0 <= seed < 2 ** 63:
         raise SpecError(f"bundle.seed: a whole number in [0, 2^63) (got {seed!r})")
@@ -149,13 +169,21 @@ def spec_from_dict(data: dict) -> DomainSpec:
         lo = _number(_need(t, "min", f"variables.{col}"), f"variables.{col}.min", lo_ok, hi_ok)
         hi = _number(_need(t, "max", f"variables.{col}"), f"variables.{col}.max", lo_ok, hi_ok)
         tr = str(t.get("transform", "linear"))
-        if tr not in ("log", "linear"):
-            raise SpecError(f"variables.{col}.transform: log or linear (got {tr!r})")
+        if tr not in ("log", "linear", "shifted-log"):
+            raise SpecError(f"variables.{col}.transform: log, linear or shifted-log (got {tr!r})")
         if not (lo_ok <= lo < hi <= hi_ok):
             raise SpecError(f"variables.{col}: need {lo_ok:g} <= min < max <= {hi_ok:g} (got {lo:g}, {hi:g})")
         if tr == "log" and lo <= 0:
-            raise SpecError(f"variables.{col}: a log transform needs min > 0 (got {lo:g})")
-        variables.append(Variable(col, lo, hi, tr))
+            raise SpecError(f"variables.{col}: a log transform needs min > 0 (got {lo:g}); "
+                            "shifted-log takes min = 0")
+        offset = 0.0
+        if tr == "shifted-log":
+            offset = _number(_need(t, "offset", f"variables.{col}"), f"variables.{col}.offset", 1e-300, 1e300)
+            if lo < 0 or lo + offset <= 0:
+                raise SpecError(f"variables.{col}: shifted-log needs min >= 0 (got {lo:g})")
+        elif "offset" in t:
+            raise SpecError(f"variables.{col}.offset: only for transform = \"shifted-log\"")
+        variables.append(Variable(col, lo, hi, tr, offset))
     if not variables:
         raise SpecError("variables: at least one sampled variable")
     fixed = data.get("fixed", {})
@@ -179,7 +207,7 @@ def spec_from_dict(data: dict) -> DomainSpec:
                 raise SpecError(f"sizes.{key}: allowed range [{lo:g}, {hi:g}] (got {v!r})")
             sizes[key] = v
     spec = DomainSpec(name=name, material=material, core_type=core_type, statistics=statistics, seed=seed,
-                      variables=tuple(variables), fixed=fixed, **sizes)
+                      variables=tuple(variables), fixed=fixed, ionisation=ionisation, **sizes)
     missing = [c for c in INPUT_COLUMNS[2:] if c not in {v.name for v in variables} | set(fixed)
                and NUMERIC_COLUMNS[c][2] is None]
     if missing:
