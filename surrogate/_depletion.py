@@ -46,10 +46,10 @@ from ._errors import DesignError
 from ._ionisation import check_ionisation, ionisation_column, localised_share, row_dopants
 from ._materials import get_material
 from ._roots import solve_bracketed
-from ._statistics import check_statistics, occupancy, reduced_level
+from ._statistics import check_statistics, intrinsic_density, occupancy, reduced_level
 from ._trees import threads as worker_threads
 from ._tunnel import tunnel_log10
-from ._validity import beyond_parabolic, penetration_text
+from ._validity import INTRINSIC_SHARE_LIMIT, beyond_parabolic, intrinsic_text, penetration_text
 
 _TINY = 1e-300
 LEVEL_XTOL = 1e-12  #: tolerance of the reduced bulk level under incomplete ionisation [1]
@@ -308,13 +308,14 @@ def prepare(table: DesignTable, statistics: str, dopants=None, mat=None):
     ), cnl
 
 
-def row_status(table: DesignTable, prob, sol, out, cnl, validity: bool = False):
+def row_status(table: DesignTable, prob, sol, out, cnl, validity: bool = False, mat=None):
     """Status per row: "ok" or why the depletion model gives no answer. ``validity`` adds the
     limits of ``_validity`` with the reference solver's texts (the engine's own answers; the
     solver seeds its grid without them): a neutral core's or shell's Fermi level beyond the
-    parabolic-band limit (first: the model's inputs already leave it), a charged surface whose
-    Fermi level lies that far inside a band (after the regime checks), and finite margins,
-    extents and peak field."""
+    parabolic-band limit (first: the model's inputs already leave it), intrinsic carriers
+    reaching ``INTRINSIC_SHARE_LIMIT`` of the lighter doping (needs ``mat``, the table's
+    ``material_arrays``), a charged surface whose Fermi level lies that far inside a band (after
+    the regime checks), and finite margins, extents and peak field."""
     status = table.status.copy()
     Eg, mirrored = prob["Eg"], ~table.p_core
 
@@ -330,6 +331,13 @@ def row_status(table: DesignTable, prob, sol, out, cnl, validity: bool = False):
     if validity:
         beyond(beyond_parabolic(y_core, Eg), "neutral core's", y_core)
         beyond(beyond_parabolic(y_shell, Eg), "neutral shell's", y_shell)
+        if mat is not None:
+            v = table.values
+            with np.errstate(all="ignore"):
+                ni = intrinsic_density(mat["band_gap_eV"], mat["nc_cm3"], mat["nv_cm3"], v["temperature_K"])
+                light = np.minimum(v["core_doping_cm3"], v["shell_doping_cm3"])
+            for i in np.flatnonzero((ni >= INTRINSIC_SHARE_LIMIT * light) & (status == "ok")):
+                status[i] = intrinsic_text(ni[i], light[i])
     fail(sol["vbi0"] <= 0, "no built-in potential: these dopings give V_bi0 <= 0")
     acc = (prob["Dit"] > 0) & (sol["phi0"] < 0)
     if acc.any():
@@ -363,7 +371,7 @@ def deplete_table(table: DesignTable, statistics: str, ionisation: str = "full",
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
         out = outputs(sol, **prob)
-    status = row_status(table, prob, sol, out, cnl, validity=validity)
+    status = row_status(table, prob, sol, out, cnl, validity=validity, mat=mat)
     good = status == "ok"
     nan = np.nan
     with np.errstate(all="ignore"):  # Kane's estimate at the junction's peak field (_tunnel)

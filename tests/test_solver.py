@@ -218,3 +218,33 @@ def test_cyclic_reduction_equals_thomas():
     np.testing.assert_array_equal(a["regime"], b["regime"])
     with pytest.raises(radialpn.DesignError, match="tridiagonal: one of"):
         solve(d, tridiagonal="lu")
+
+
+def test_near_intrinsic_vbi0_counts_both_carriers():
+    # Hot, lightly doped Ge: n_i is comparable to the dopings, so the neutral regions hold
+    # n0 = N/2 + sqrt(N^2/4 + n_i^2) majority carriers (Neamen, Semiconductor Physics and
+    # Devices, 4th ed., eq. 4.60, equation number from memory), and with Boltzmann statistics
+    # V_bi0 = kT ln(n_n0 p_p0 / n_i^2) (Sze & Ng, 3rd ed., eq. 2.8, from memory). The solver's
+    # bulk neutrality must give that to its root tolerance (1e-9 V allowed: the closed form is
+    # exact for Boltzmann statistics). The depletion engine, which counts majority carriers
+    # only, refuses such a design; the surrogate's bound is the solver's V_bi0.
+    ge = get_material("Ge")
+    t, na, nd = 500.0, 1e16, 2e16
+    kt = Boltzmann * t / elementary_charge
+    ni = math.sqrt(ge.nc(t) * ge.nv(t)) * math.exp(-ge.band_gap(t) / (2 * kt))
+    assert ni > 0.5 * na  # the case is near-intrinsic
+    pp, nn = na / 2 + math.sqrt(na ** 2 / 4 + ni ** 2), nd / 2 + math.sqrt(nd ** 2 / 4 + ni ** 2)
+    want = kt * math.log(pp * nn / ni ** 2)
+    d = row(100, 150, na, nd, 1e11, material="Ge", cnl_eV=0.1, temperature_K=t)
+    got = solve(d, "boltzmann")
+    assert got["status"][0] == "ok" and got["vbi0_V"][0] == pytest.approx(want, abs=1e-9)
+    majority_only = kt * math.log(na * nd / ni ** 2)
+    assert want - majority_only > 0.02  # what counting majority carriers alone would miss [V]
+    dep = radialpn.deplete(d, "boltzmann")
+    assert "intrinsic carriers" in dep["status"][0] and "solver" in dep["status"][0] and math.isnan(dep["vbi0_V"][0])
+    # the surrogate (Fermi-Dirac, as its bundles) reports and bounds by the solver's V_bi0: the
+    # same neutrality code, 1e-12 V (root tolerance 1e-13 eV)
+    d = dict(d, core_doping_cm3=3e16, shell_doping_cm3=3e16, temperature_K=450.0)  # n_i ~ 0.3 N, V_bi0 > 0 either way
+    sur, ref = radialpn.predict(d, engine="surrogate"), solve(d)
+    assert sur["status"][0] == "ok" and sur["vbi0_V"][0] == pytest.approx(ref["vbi0_V"][0], abs=1e-12)
+    assert sur["vbi_low_V"][0] <= sur["vbi_V"][0] <= sur["vbi_high_V"][0] <= sur["vbi0_V"][0]

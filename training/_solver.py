@@ -20,13 +20,13 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 
 from .._constants import K_B_EV, NM, Q
-from .._depletion import prepare, row_status, outputs, material_arrays, solve_pcore
+from .._depletion import prepare, row_status, outputs, solve_pcore
+from .._bulk import bulk_levels
 from .._design import REGIMES, DesignTable, normalize_designs
 from .._errors import DesignError
-from .._ionisation import check_ionisation, ionisation_column, row_dopants, unionised
+from .._ionisation import check_ionisation, ionisation_column, row_dopants
 from .._profiles import fermi_minus_ev
-from .._roots import solve_bracketed
-from .._statistics import check_statistics, occupancy, reduced_level
+from .._statistics import check_statistics, occupancy
 from .._tunnel import tunnel_log10
 from .._validity import beyond_parabolic, penetration_text
 
@@ -51,35 +51,6 @@ IONISATION_STEP = 0.25
 IONISATION_MIN_STEP = 1.0 / 64
 
 
-def _neutral_level(N, dos_major, dos_minor, Eg, kt, statistics, level=None, degeneracy=None, share=None):
-    """E_F - E_majority-band-edge solving exact neutrality majority - minority = ionised dopants
-    [eV], returned as y = E_F - E_v of a p-type region with N acceptors (mirrored frame). With
-    ``level`` (E_i [eV]), ``degeneracy`` [1] and ``share`` [1] the acceptors are ionised by
-    N- = N (1 - u(x)), x = (y - E_i)/kT (``_ionisation.unionised``); otherwise fully."""
-    p = dict(N=N, Nv=dos_major, Nc=dos_minor, Eg=Eg, kT=kt)
-    if share is not None:
-        p.update(E=level, g=degeneracy, s=share)
-
-    def f(y, q):  # increasing in y: N- - (p - n)
-        fp, dfp = occupancy(-y / q["kT"], statistics)
-        fn, dfn = occupancy((y - q["Eg"]) / q["kT"], statistics)
-        val, der = q["N"] - q["Nv"] * fp + q["Nc"] * fn, (q["Nv"] * dfp + q["Nc"] * dfn) / q["kT"]
-        if "s" in q:
-            u, du = unionised((y - q["E"]) / q["kT"], q["g"], q["s"])
-            val, der = val - q["N"] * u, der - q["N"] * du / q["kT"]
-        return val, der
-
-    # bracket wide enough for any degeneracy: the majority-only level (minority carriers can only
-    # lower |y|) lies below the root; a fixed -3 eV clipped degenerate narrow-gap levels (issue 10)
-    with np.errstate(all="ignore"):
-        deep = kt * reduced_level(N / dos_major, 1.0, statistics)
-    lo = np.minimum(-3.0, -np.where(np.isfinite(deep), deep, 0.0) - 1.0)
-    hi = Eg + 3.0
-    with np.errstate(all="ignore"):
-        y, _ = solve_bracketed(f, p, lo, hi, xtol=1e-13)
-    return y
-
-
 def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
     """Per-design arrays of the mirrored p-core problem, plus the depletion start and the
     dopant levels (``_ionisation.row_dopants``) where ionisation is incomplete."""
@@ -89,25 +60,15 @@ def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
     dop = dop if incomplete.any() else None
     prob, cnl = prepare(table, statistics, dop)
     v = table.values
-    mat = material_arrays(table.material, v["temperature_K"], statistics)
-    pc = table.p_core
     ok = table.ok
-    kt = np.where(ok, mat["kT_eV"], 0.025)
-    nv = np.where(ok, np.where(pc, mat["nv_cm3"], mat["nc_cm3"]), 1e18) * 1e6  # majority band of the core
-    nc = np.where(ok, np.where(pc, mat["nc_cm3"], mat["nv_cm3"]), 1e18) * 1e6
     il = np.where(ok, v["interlayer_nm"], 0.0) * NM
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)
         da_out = outputs(sol, **prob)
     da_ok = (row_status(table, prob, sol, da_out, cnl) == "ok") & (il == 0)
-    ion_c = ion_s = {}
-    if dop is not None:
-        ion_c = dict(level=dop["core_E"], degeneracy=dop["core_g"], share=np.where(ok, dop["core_s"], 0.0))
-        ion_s = dict(level=dop["shell_E"], degeneracy=dop["shell_g"], share=np.where(ok, dop["shell_s"], 0.0))
-    y_core = _neutral_level(prob["NA"], nv, nc, prob["Eg"], kt, statistics, **ion_c)
-    y_shell = prob["Eg"] - _neutral_level(prob["ND"], nc, nv, prob["Eg"], kt, statistics, **ion_s)
-    return dict(prob=prob, sol=sol, da_ok=da_ok, kT=kt, Nv=nv, Nc=nc, b=prob["a"] + il,
-                y_core=y_core, y_shell=y_shell, dopants=dop, table=table, incomplete=incomplete)
+    lv = bulk_levels(table, prob, dop, statistics)  # exact neutrality, both carriers
+    return dict(prob=prob, sol=sol, da_ok=da_ok, kT=lv["kT"], Nv=lv["Nv"], Nc=lv["Nc"], b=prob["a"] + il,
+                y_core=lv["y_core"], y_shell=lv["y_shell"], dopants=dop, table=table, incomplete=incomplete)
 
 
 def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, max_iter: int = MAX_ITER,
