@@ -76,22 +76,35 @@ def cmd_models(args, console, out) -> int:
                       f"{100 * v['interval_coverage']:.2f} %" if v else "")
     console.print(table)
     _coverage_table(metas, console)
-    named = [n for n, (_, _, m) in metas.items() if m is not None]
-    dom = Table(title="trained domain (designs outside get no answer)", title_justify="left")
-    dom.add_column("variable")
-    for n in named:
-        dom.add_column(n, justify="right")
-    for k, label in SHORT.items():
-        cells = []
-        for n in named:
-            d = metas[n][2].get("domain", {}).get(k)
-            cells.append(f"{_q(k, d[0])}–{_q(k, d[1])}" if d else "")
-        if any(cells):
-            dom.add_row(escape(label), *cells)
-    console.print(dom)
+    _domain_table([n for n, (_, _, m) in metas.items() if m is not None], metas, console)
     console.print("[dim]Validated rows per bundle and the method: CARD.md in each bundle directory. Answers are "
                   "design estimates, not measurements.[/]")
     return _errors.OK
+
+
+def _domain_table(named, metas, console) -> None:
+    """The trained domains: ranges every bundle shares on one line, then one row per bundle with
+    the ranges that differ (a table with a column per bundle would not fit a terminal)."""
+    cells = {k: [] for k in SHORT}
+    for n in named:
+        dom = metas[n][2].get("domain", {})
+        for k in SHORT:
+            d = dom.get(k)
+            cells[k].append(f"{_q(k, d[0])}–{_q(k, d[1])}" if d else "—")
+    shared = [k for k in SHORT if len(set(cells[k])) == 1 and cells[k] and cells[k][0] != "—"]
+    varying = [k for k in SHORT if k not in shared and any(c != "—" for c in cells[k])]
+    if shared:
+        console.print("trained domain (designs outside get no answer), every bundle: "
+                      + escape(", ".join(f"{SHORT[k]} {cells[k][0]}" for k in shared)))
+    if varying:
+        t = Table(title="trained domain, per bundle" if shared else "trained domain (designs outside get no answer)",
+                  title_justify="left")
+        t.add_column("bundle")
+        for k in varying:
+            t.add_column(escape(SHORT[k]), justify="right")
+        for i, n in enumerate(named):
+            t.add_row(n, *(cells[k][i] for k in varying))
+        console.print(t)
 
 
 REGIME_SHORT = {"both-neutral": "both\nneutral", "core-depleted": "core\ndepleted",

@@ -52,7 +52,7 @@ from ._ionisation import (
 )
 from ._statistics import STATISTICS, fermi_half, fermi_half_inverse, intrinsic_density, reduced_level
 
-__version__ = "0.2.0"
+__version__ = "0.3.0"
 
 
 def predict(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac", second_opinion: bool = False,

@@ -15,7 +15,7 @@ from ._design import DesignTable, normalize_designs
 from ._errors import DesignError
 from ._model import empty_result, predict_bundles
 from ._single import one_design
-from ._ionisation import AUTO_BELOW_K, DEEP_EV, check_ionisation, row_dopants
+from ._ionisation import check_ionisation, row_dopants
 from ._statistics import check_statistics
 
 ENGINES = ("auto", "surrogate", "depletion", "solver")
@@ -43,9 +43,6 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_
                   ionisation=ionisation)
 
 
-BUNDLE_IONISATION = "full"  #: the ionisation model every shipped bundle's training set was solved with
-
-
 def _surrogate(table, statistics, second_opinion=False, ionisation="auto", models=None):
     """Bundles' answers where the row's statistics and resolved ionisation model are those the
     bundles were trained on; a status saying why for the other valid rows."""
@@ -55,21 +52,11 @@ def _surrogate(table, statistics, second_opinion=False, ionisation="auto", model
                "(or auto) answers it")
         res["status"] = np.where(table.status == "ok", msg, table.status).astype(object)
         return res
-    incomplete, refused, _ = row_dopants(table, ionisation)
+    refused = row_dopants(table, ionisation)[1]
     if refused is not None:  # "incomplete" for a material without dopant levels
         table = DesignTable(table.n, table.material, table.p_core, table.values, refused)
-    res = predict_bundles(table, second_opinion=second_opinion, models=models)
-    differs = incomplete & (res["status"] == "ok")  # a bundle would answer, on the wrong model
-    if differs.any():
-        for k, v in res.items():
-            if k in ("status", "engine"):
-                continue
-            v[differs] = np.nan if v.dtype.kind == "f" else (False if v.dtype.kind == "b" else "")
-        res["status"][differs] = ("surrogate: the bundle is trained with full ionisation; this design resolves to "
-                                  f"incomplete ionisation (ionisation {ionisation!r}: below {AUTO_BELOW_K:g} K or a "
-                                  f"dopant {DEEP_EV:g} eV deep or deeper turns it on)")
-    res["ionisation"] = np.where(res["status"] == "ok", BUNDLE_IONISATION, "").astype(object)
-    return res
+    # each bundle answers only rows that ``ionisation`` resolves to the model it was trained on
+    return predict_bundles(table, second_opinion=second_opinion, models=models, ionisation=ionisation)
 
 
 def check_engine(engine: str) -> str:

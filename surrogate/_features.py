@@ -10,7 +10,11 @@ from ._constants import EPS0, K_B_EV, NM, Q
 from ._depletion import deplete_table, material_arrays
 from ._design import REGIMES, DesignTable
 
-FEATURES_VERSION = 1  #: bump when a feature changes: bundles record the version they need
+FEATURES_VERSION = 2  #: bump when a feature changes: bundles record the version they need
+#: D_it enters as log10(D_it + DIT_FLOOR) so that D_it = 0 (a passivated surface) is an ordinary
+#: point; at 1e9 cm^-2 eV^-1 the surface charge is below 1 % of the lightest depletion charge of
+#: any shipped domain (q D_it kT ~ 4e7 e/cm^2 against q N w >= 1e10 e/cm^2) [cm^-2 eV^-1]
+DIT_FLOOR = 1e9
 FEATURE_NAMES = (
     "log10_core_radius_nm", "log10_shell_thickness_nm", "log10_core_doping_cm3", "log10_shell_doping_cm3",
     "log10_dit_cm2eV", "cnl_eV", "temperature_K",
@@ -20,11 +24,14 @@ FEATURE_NAMES = (
 )
 
 
-def features(table: DesignTable, statistics: str = "fermi-dirac"):
+def features(table: DesignTable, statistics: str = "fermi-dirac", ionisation: str = "full"):
     """Feature matrix X (n, len(FEATURE_NAMES)) [mixed units, see names] and the depletion
     engine's output mapping for the rows of a validated table. Rows the engine cannot answer
-    get NaN depletion features (the trees route missing values)."""
-    da = deplete_table(table, statistics, validity=False)  # features as defined before the validity limits
+    get NaN depletion features (the trees route missing values). ``ionisation``: the dopant
+    ionisation model of the depletion engine, the one the bundle's training set was solved with
+    ("full", or "auto": incomplete where ``_ionisation`` turns it on)."""
+    # features as defined before the validity limits
+    da = deplete_table(table, statistics, ionisation=ionisation, validity=False)
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
     a, t = v["core_radius_nm"], v["shell_thickness_nm"]
@@ -39,7 +46,7 @@ def features(table: DesignTable, statistics: str = "fermi-dirac"):
         for i, r in enumerate(REGIMES):
             code[da["regime"] == r] = i
         X = np.column_stack([
-            np.log10(a), np.log10(t), np.log10(na), np.log10(nd), np.log10(np.maximum(v["dit_cm2eV"], 1e-30)), cnl,
+            np.log10(a), np.log10(t), np.log10(na), np.log10(nd), np.log10(v["dit_cm2eV"] + DIT_FLOOR), cnl,
             v["temperature_K"], da["vbi_V"], da["vbi0_V"], da["vbi_V"] / da["vbi0_V"], da["core_margin"],
             da["shell_margin"], da["surface_bending_V"], da["surface_barrier_V"], code, np.log10(a / ld_core),
             np.log10(t / ld_shell), da["core_margin"] * a / ld_core, da["shell_margin"] * t / ld_shell,

@@ -10,18 +10,24 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._bulk import vbi0_bound
 from ._bundle import MAX_BYTES, BundleError, find_bundles, read_bundle
 from ._design import REGIMES, DesignTable, normalize_designs
-from ._features import FEATURE_NAMES, FEATURES_VERSION, features
+from ._features import DIT_FLOOR, FEATURE_NAMES, FEATURES_VERSION, features
+from ._ionisation import row_dopants
 from ._gp import GaussianProcess
 from ._single import features_one, one_design
 from ._trees import TreeEnsemble
 
 CONFIRM_PROB = 0.9  #: regime probability below which a design is flagged for the solver
 #: a design whose 95 % interval (after the bounds) is wider than +- this is flagged for the solver
-#: (issue 5's 99th-percentile error target): on the shipped bundles' validation runs this flags
-#: 6-9 % of designs without the GP (+-10 mV would flag 14-16 %) [V]
+#: (issue 5's 99th-percentile error target): by itself it flags 0-6 % of uniform designs of
+#: the 0.3 bundles (InP n-core the most), the regime probability 0.5-3 % [V]
 CONFIRM_HALF_WIDTH_V = 0.020
+#: a reference answer within this of an interval end counts as inside it (validation, ``review``):
+#: on both-neutral rows the solver's V_bi equals its V_bi0 to rounding (measured up to 5e-13 V
+#: above it) and the interval's upper end is clipped to exactly V_bi0, so a tie is no miss [V]
+INTERVAL_TIE_V = 1e-9
 MIN_NEUTRAL_NM = 0.05  #: a region the regime keeps is reported with at least this neutral extent [nm]
 DOMAIN_SLACK = 0.05  #: a bundle's domain may exceed its fitted data's span by this share of it
 #: V_bi's learned residual is averaged over this many designs around each design (1: no smoothing);
@@ -51,6 +57,9 @@ class SurrogateModel:
         #: quantiles were calibrated (changing them voids the calibration; benchmarks only)
         self.smooth_points, self.smooth_dex = fields["smooth_points"], fields["smooth_dex"]
         self.name, self.material, self.core_type, self.statistics = fields["identity"]
+        #: dopant ionisation model of the training set: "full", or "auto" (incomplete where
+        #: ``_ionisation`` turns it on); the depletion features use the same
+        self.ionisation_ = fields["ionisation"]
         self.domain, self.fixed = fields["domain"], fields["fixed"]
         self.temperature_, self.q_gbm_, self.q_gp_ = fields["temperature"], fields["q_gbm"], fields["q_gp"]
         # conformal quantiles per predicted regime (Mondrian), indexed by the regime's code
@@ -104,12 +113,20 @@ class SurrogateModel:
         fitted on (the GP's training points, a sample of the training set), widened by
         ``DOMAIN_SLACK`` of that span: a widened domain would call extrapolation in-domain."""
         X = self.gp_.X * self.gp_scale_ + self.gp_mean_
+        transforms, offsets = self.meta.get("transforms", {}), self.meta.get("offsets", {})
         for col, (lo, hi) in self.domain.items():
             j = FEATURE_INDEX.get(col)
             if j is None:
                 continue
-            f = np.log10 if col in LOG_FEATURES else (lambda x: x)
-            seen_lo, seen_hi = float(X[:, j].min()), float(X[:, j].max())
+            # the fitted designs in the column's unit, compared in the space the spec sampled
+            x = X[:, j] if col not in LOG_FEATURES else np.maximum(10.0 ** X[:, j] - (DIT_FLOOR if col == "dit_cm2eV"
+                                                                                       else 0.0), 0.0)
+            tr = transforms.get(col, "log" if col in LOG_FEATURES else "linear")
+            s = float(offsets.get(col, 0.0)) if tr == "shifted-log" else 0.0
+            f = (lambda v, s=s: np.log10(np.asarray(v) + s)) if tr in ("log", "shifted-log") else (lambda v: v)
+            with np.errstate(divide="ignore"):
+                seen = f(x)
+            seen_lo, seen_hi = float(seen.min()), float(seen.max())
             slack = DOMAIN_SLACK * (seen_hi - seen_lo)
             if f(lo) < seen_lo - slack or f(hi) > seen_hi + slack:
                 raise BundleError(f"bundle {self.name}: domain of {col} [{lo:g}, {hi:g}] is wider than the data the "
@@ -160,7 +177,8 @@ class SurrogateModel:
                 return f"outside the model's domain: {col} must be {float(v):g}"
         return ""
 
-    def predict(self, designs, second_opinion: bool = False, class_probs: bool = False, models=None) -> dict:
+    def predict(self, designs, second_opinion: bool = False, class_probs: bool = False, models=None,
+                ionisation: str | None = None) -> dict:
         """Answer designs (mapping of column -> array, list of row dicts, or DataFrame).
 
         Returns a mapping of output columns to numpy arrays, one entry per input row.
@@ -175,6 +193,10 @@ class SurrogateModel:
         its column (and brings ``"regime"``, which clips it). Columns of models left out are NaN
         (regime ""); the rest are those of the full evaluation, but ``confirm_with_solver``
         reads only the models evaluated (False without the regime).
+        ``ionisation``: the dopant ionisation model asked for ("auto", "full" or "incomplete";
+        None: the bundle's own, ``ionisation_``); a row it resolves differently from the
+        bundle's training set is refused with a status saying so. The ``ionisation`` column
+        names the model each answered row used.
         """
         models = _needed(models, second_opinion)
         table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
@@ -184,6 +206,15 @@ class SurrogateModel:
         ok = status == "ok"
         status[ok & (why != "")] = why[ok & (why != "")]
         in_domain = ok & (why == "")
+        incomplete = row_dopants(table, self.ionisation_)[0] if in_domain.any() else np.zeros(n, dtype=bool)
+        if ionisation is not None and ionisation != self.ionisation_ and in_domain.any():
+            differs = in_domain & (row_dopants(table, ionisation)[0] != incomplete)
+            if differs.any():
+                status[differs] = [f"surrogate: ionisation {ionisation!r} gives this design "
+                                   f"{'incomplete' if not x else 'full'} ionisation; the bundle learned "
+                                   f"{'incomplete' if x else 'full'} ionisation here (its training set: "
+                                   f"{self.ionisation_!r})" for x in incomplete[differs]]
+                in_domain &= ~differs
         out = {k: c for k, c in zip(("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm",
                                                  "surface_bending_V", "regime_prob", "vbi_low_V", "vbi_high_V"), _nans(8, n))}
         regime = np.full(n, "", dtype=object)
@@ -193,8 +224,8 @@ class SurrogateModel:
         rows = np.flatnonzero(in_domain)
         if rows.size:
             sub = table.take(rows)
-            one = features_one(sub, self.statistics) if sub.n == 1 else None  # the scalar fast path
-            X, da = one if one is not None else features(sub, self.statistics)
+            one = features_one(sub, self.statistics, self.ionisation_) if sub.n == 1 else None  # scalar fast path
+            X, da = one if one is not None else features(sub, self.statistics, self.ionisation_)
             good = np.isfinite(X).all(1) & (da["status"] == "ok")
             forest, sl = self._forest(models)
             raw = np.full((X.shape[0], self.forest_.n_outputs), np.nan)
@@ -209,7 +240,9 @@ class SurrogateModel:
             code = p.argmax(1)
             # bounds by construction: 0 <= V_bi <= V_bi0 for the estimate and both interval ends
             # (the electrostatic barrier cannot exceed the bulk one on a depleting surface nor be negative)
-            vbi0 = da["vbi0_V"]
+            # the solver's V_bi0 (both carriers in the bulk neutrality), which the depletion engine's
+            # majority-only V_bi0 undershoots where n_i nears a doping (hot Ge, InAs)
+            vbi0 = vbi0_bound(sub, da["vbi0_V"], self.statistics, self.ionisation_)
             residual = raw[:, sl["vbi"]][:, 0]  # NaN when "vbi" is not evaluated: no neighbours then
             centre = self._vbi_centre(sub, da, residual) if "vbi" in models else da["vbi_V"] + residual
             half = self.q_gbm_by_regime_[code] * np.exp(raw[:, sl["difficulty"]][:, 0])
@@ -222,7 +255,7 @@ class SurrogateModel:
             out["vbi_V"][rows] = vbi
             low, high = np.clip(centre - half, 0.0, vbi0), np.clip(centre + half, 0.0, vbi0)
             out["vbi_low_V"][rows], out["vbi_high_V"][rows] = low, high
-            out["vbi0_V"][rows] = da["vbi0_V"]
+            out["vbi0_V"][rows] = vbi0
             # extents follow the regime: zero where it empties a region; where it keeps one, at
             # least MIN_NEUTRAL_NM (a contradicting extent model is overruled and the row flagged)
             core_kept, shell_kept = (code == 0) | (code == 2), (code == 0) | (code == 1)
@@ -266,7 +299,9 @@ class SurrogateModel:
                                                            "shell_neutral_nm", "surface_bending_V")},
                 "engine": np.full(n, "surrogate", dtype=object), "status": status, "regime_prob": out["regime_prob"],
                 "vbi_low_V": out["vbi_low_V"], "vbi_high_V": out["vbi_high_V"], "in_domain": in_domain,
-                "confirm_with_solver": confirm, **gp_cols, **prob_cols}
+                "confirm_with_solver": confirm,
+                "ionisation": np.where(status == "ok", np.where(incomplete, "incomplete", "full"), "").astype(object),
+                **gp_cols, **prob_cols}
 
     def _vbi_centre(self, sub: DesignTable, da: dict, residual: np.ndarray) -> np.ndarray:
         """V_bi before the bounds [V]: the depletion engine's V_bi plus the trees' residual [V]
@@ -290,7 +325,7 @@ class SurrogateModel:
                 for i, c in enumerate(SMOOTH_COLUMNS):
                     vals[c] = sub.values[c] * 10.0 ** off[j, i]
                 one = features_one(DesignTable(n=1, material=sub.material, p_core=sub.p_core, values=vals,
-                                               status=sub.status), self.statistics)
+                                               status=sub.status), self.statistics, self.ionisation_)
                 if one is None:
                     break  # the general path below decides (and keeps the unsmoothed residual)
                 near_rows.append(one[0][0])
@@ -301,7 +336,7 @@ class SurrogateModel:
             values[c] = values[c] * np.repeat(10.0 ** off[:, j], n)
         near = DesignTable(n=n * k, material=np.tile(sub.material, k), p_core=np.tile(sub.p_core, k), values=values,
                            status=np.tile(sub.status, k))
-        Xn, dan = features(near, self.statistics)
+        Xn, dan = features(near, self.statistics, self.ionisation_)
         res = self.vbi_forest_.raw(Xn)[:, 0].reshape(k, n)
         good = (np.isfinite(Xn).all(1) & (dan["status"] == "ok")).reshape(k, n).all(0)
         return da["vbi_V"] + np.where(good, res.mean(0), residual)
@@ -316,7 +351,7 @@ class SurrogateModel:
         out = {"group": np.full(table.n, -1), "tree": np.full(table.n, np.nan), "gp": np.full(table.n, np.nan)}
         rows = np.flatnonzero((table.status == "ok") & (self.domain_check(table) == ""))
         if rows.size:
-            X, da = features(table.take(rows), self.statistics)
+            X, da = features(table.take(rows), self.statistics, self.ionisation_)
             raw = self.forest_.raw(X)
             sl = self.slices_
             centre = self._vbi_centre(table.take(rows), da, raw[:, sl["vbi"]][:, 0])
@@ -371,7 +406,7 @@ def _check_meta(meta: dict) -> dict:
     """Field-by-field check of bundle.json: identity, domain, fixed values, calibration."""
     from ._design import NUMERIC
     from ._errors import MaterialError
-    from ._materials import get_material
+    from ._materials import get_material, material_parameters
     from ._statistics import STATISTICS
 
     name = meta.get("name")
@@ -387,6 +422,16 @@ def _check_meta(meta: dict) -> dict:
     except MaterialError:
         raise BundleError(f"{where}: bundle.json names an unknown material {meta.get('material')!r}") from None
     need(meta.get("core_type") in ("p", "n"), "core_type must be p or n")
+    recorded = meta.get("material_parameters")  # absent in bundles written before 0.3
+    if recorded is not None:
+        need(isinstance(recorded, dict), "material_parameters must be a table")
+        now = material_parameters(get_material(material))
+        for key, v in now.items():
+            r = recorded.get(key, "missing")
+            same = (r is None and v is None) or (isinstance(r, (int, float)) and not isinstance(r, bool) and v is not None
+                                                 and abs(r - v) <= 1e-12 * max(abs(v), 1e-300))
+            need(same, f"records {material} with {key} = {r} (its training set); the material table now gives {v}: "
+                 "retrain it for this definition (`radialpn train`)")
     need(meta.get("statistics") in STATISTICS, f"statistics must be one of {', '.join(STATISTICS)}")
     dom = meta.get("domain")
     need(isinstance(dom, dict) and dom, "has no domain")
@@ -415,6 +460,9 @@ def _check_meta(meta: dict) -> dict:
     need(isinstance(dex, (int, float)) and not isinstance(dex, bool) and np.isfinite(dex) and 0 <= dex <= 0.05,
          f"conformal.smooth_dex must be in [0, 0.05] decades (got {dex!r})")
     vals.update(smooth_points=k, smooth_dex=float(dex))
+    ion = meta.get("ionisation", "full")  # absent: a bundle of solver <= 1.2, trained with full ionisation
+    need(ion in ("full", "auto"), f"ionisation must be 'full' or 'auto' (got {ion!r})")
+    vals["ionisation"] = ion
     return {"identity": (name, material, meta["core_type"], meta["statistics"]), "domain": domain,
             "fixed": {c: float(x) for c, x in fixed.items()}, **vals}
 
@@ -492,9 +540,11 @@ def available() -> list:
     return out
 
 
-def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = False, models=None) -> dict:
+def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = False, models=None,
+                    ionisation: str | None = None) -> dict:
     """Answer designs of any material/core type with the matching bundles (rows without one
-    get a status). ``class_probs`` adds ``PROB_COLUMNS``; ``models`` as for ``predict``."""
+    get a status). ``class_probs`` adds ``PROB_COLUMNS``; ``models`` and ``ionisation`` as for
+    ``predict``."""
     table = designs if isinstance(designs, DesignTable) else normalize_designs(designs)
     n = table.n
     if n == 1 and table.status[0] == "ok":  # one design: its bundle's answer is the whole answer
@@ -503,7 +553,7 @@ def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = F
         except BundleError:
             pass
         else:
-            return model.predict(table, second_opinion, class_probs, models)
+            return model.predict(table, second_opinion, class_probs, models, ionisation)
     result = None
     from ._design import categories
 
@@ -519,7 +569,7 @@ def predict_bundles(designs, second_opinion: bool = False, class_probs: bool = F
         except BundleError as exc:
             part = {"status": np.full(sel.size, str(exc), dtype=object)}
         else:
-            part = model.predict(table.take(sel), second_opinion, class_probs, models)
+            part = model.predict(table.take(sel), second_opinion, class_probs, models, ionisation)
         if result is None:
             result = empty_result(n, second_opinion, table.status, class_probs)
         for k, v in part.items():
@@ -535,7 +585,7 @@ def empty_result(n, second_opinion, status, class_probs=False):
         cols[k] = np.full(n, np.nan)
     cols.update(engine=np.full(n, "surrogate", dtype=object), status=status.copy(), regime_prob=np.full(n, np.nan),
                 vbi_low_V=np.full(n, np.nan), vbi_high_V=np.full(n, np.nan), in_domain=np.zeros(n, dtype=bool),
-                confirm_with_solver=np.zeros(n, dtype=bool))
+                confirm_with_solver=np.zeros(n, dtype=bool), ionisation=np.full(n, "", dtype=object))
     if second_opinion:
         cols.update({k: np.full(n, np.nan) for k in ("vbi_gp_V", "vbi_gp_low_V", "vbi_gp_high_V")})
     if class_probs:

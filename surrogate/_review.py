@@ -10,6 +10,7 @@ import time
 from . import _questions
 from ._engines import DEFAULT_ENGINE, answer, check_engine, solve
 from ._errors import RadialpnError
+from ._model import INTERVAL_TIE_V
 from ._tunnel import TUNNEL_RISK_LOG10
 
 #: run-to-run spreads used when none are given: illustrative values of a typical MOVPE/MBE
@@ -66,7 +67,7 @@ def review(design: dict, spreads: dict | None = None, samples: int = REVIEW_SAMP
     both = chk["status"] == "ok" and ans["status"] == "ok"
     chk["same_regime"] = both and chk["regime"] == ans["regime"]
     chk["difference_mV"] = 1e3 * (ans["vbi_V"] - chk["vbi_V"]) if both else math.nan
-    chk["inside_interval"] = (bool(ans["vbi_low_V"] <= chk["vbi_V"] <= ans["vbi_high_V"])
+    chk["inside_interval"] = (bool(ans["vbi_low_V"] - INTERVAL_TIE_V <= chk["vbi_V"] <= ans["vbi_high_V"] + INTERVAL_TIE_V)
                               if both and "vbi_low_V" in ans else None)
     t = time.perf_counter()
     prof = _questions.profile(base, "solver", statistics, ionisation)

@@ -25,6 +25,8 @@ from . import _statistics as _st
 from ._constants import CM2_TO_M2, CM3_TO_M3, EPS0, K_B_EV, NM, Q
 from ._design import INPUT_COLUMNS, NUMERIC, REGIMES, DesignTable, parse_quantity
 from ._errors import RadialpnError
+from ._features import DIT_FLOOR
+from ._ionisation import row_dopants
 from ._materials import get_material
 from ._roots import ROOT_MAXITER, ROOT_XTOL
 
@@ -281,10 +283,13 @@ def _solve(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     return out
 
 
-def features_one(table: DesignTable, statistics: str):
+def features_one(table: DesignTable, statistics: str, ionisation: str = "full"):
     """``_features.features`` for a one-row validated table: (X (1, n_features), depletion
-    output mapping of one-element arrays), or None when the general path must answer."""
+    output mapping of one-element arrays), or None when the general path must answer (an
+    interlayer, or a row ``ionisation`` resolves to incomplete ionisation)."""
     if table.n != 1 or table.status[0] != "ok":
+        return None
+    if ionisation != "full" and row_dopants(table, ionisation)[0][0]:
         return None
     v = {k: float(x[0]) for k, x in table.values.items()}
     if v["interlayer_nm"] > 0:
@@ -307,7 +312,7 @@ def features_one(table: DesignTable, statistics: str):
         ld_core = math.sqrt(eps * kt / (Q * na * 1e6)) / NM
         ld_shell = math.sqrt(eps * kt / (Q * nd * 1e6)) / NM
         lg = math.log10
-        row = [lg(r), lg(t), lg(na), lg(nd), lg(max(v["dit_cm2eV"], 1e-30)), cnl, v["temperature_K"], sol["vbi_V"],
+        row = [lg(r), lg(t), lg(na), lg(nd), lg(v["dit_cm2eV"] + DIT_FLOOR), cnl, v["temperature_K"], sol["vbi_V"],
                sol["vbi0_V"], sol["vbi_V"] / sol["vbi0_V"], sol["core_margin"], sol["shell_margin"],
                sol["surface_bending_V"], sol["surface_barrier_V"], float(sol["regime"]), lg(r / ld_core),
                lg(t / ld_shell), sol["core_margin"] * r / ld_core, sol["shell_margin"] * t / ld_shell]

@@ -162,8 +162,8 @@ def test_search_on_dask_equals_local(cluster):
 
 
 def test_auto_engine_columns_do_not_depend_on_chunks(tmp_path):
-    # The auto engine calls the solver only for rows the surrogate refuses (here InAs, which has
-    # no bundle, and the out-of-domain rows); a chunk without such rows must still write the
+    # The auto engine calls the solver only for rows the surrogate refuses (here an InAs row
+    # outside its bundle's doping and neutral-level domain, and the out-of-domain rows); a chunk without such rows must still write the
     # solver's columns (blank), so that cutting the table differently gives the same columns and
     # cells. Numbers agree to 1e-12 relative, not bit for bit: the solver's vectorised root
     # solves and numpy's SIMD loops round the last bit differently for a different set of rows.

@@ -196,13 +196,15 @@ def test_batch_surrogate_second_opinion(tmp_path):
     src = tmp_path / "in.csv"
     src.write_text("name,material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
                    "a,GaAs,p,60,40,1e18,1e18,1e12\nb,GaAs,n,45,30,5e17,2e18,5e12\nc,GaAs,p,900,40,1e18,1e18,1e12\n"
-                   "d,Si,p,60,40,1e18,1e18,1e12\n")
+                   "d,Si,p,60,40,1e18,1e18,1e12\ne,InAs,p,60,40,1e18,1e18,1e12\n")
     code, _, out = run(["batch", str(src), "--engine", "surrogate", "--second-opinion", "--keep-going"])
     got = list(csv.DictReader(io.StringIO(out)))
-    assert code == 0 and [g["name"] for g in got] == ["a", "b", "c", "d"]
+    assert code == 0 and [g["name"] for g in got] == ["a", "b", "c", "d", "e"]
     assert got[0]["in_domain"] == "true" and float(got[0]["vbi_gp_V"]) > 0 and got[0]["status"] == "ok"
     assert got[2]["in_domain"] == "false" and got[2]["vbi_V"] == ""
-    assert "no surrogate bundle for Si" in got[3]["status"]
+    assert got[3]["status"] == "ok" and float(got[3]["vbi_gp_V"]) > 0  # Si has its bundle
+    # InAs's own neutral level lies in its conduction band: its bundle covers 0.05-0.30 eV only
+    assert "cnl_eV 0.5 not in [0.05, 0.3]" in got[4]["status"] and got[4]["vbi_V"] == ""
 
 
 def test_models_lists_bundles():

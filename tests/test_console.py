@@ -49,11 +49,11 @@ def test_console_full_design_assumes_nothing():
 
 
 def test_console_verify_clears_the_flag():
-    # a wire on the edge of the shell's depletion (regime probability 0.85 < 0.9, a flag that does
+    # a wire on the edge of the shell's depletion (regime probability 0.86 < 0.9, a flag that does
     # not hang on the GP's calibration): flagged until the solver has checked this very design,
     # then shown as verified
     argv = ["console", "--material", "GaAs", "--core-type", "p", "--core-radius", "80nm", "--shell-thickness",
-            "36.5nm", "--core-doping", "1e18", "--shell-doping", "2e18", "--dit", "5e12"]
+            "36.6nm", "--core-doping", "1e18", "--shell-doping", "2e18", "--dit", "5e12"]
     code, text, _ = run(argv, "verify\nshow\n")
     flat = " ".join(text.split())
     assert code == 0 and "solver: " in flat

@@ -214,10 +214,18 @@ def test_engines_route_rows_whose_model_differs_from_the_bundles():
     sur = radialpn.predict(row, engine="surrogate")
     assert sur["status"][0] == "ok" and sur["ionisation"][0] == "full"  # default auto: the bundle answers
     refused = radialpn.predict(row, engine="surrogate", ionisation="incomplete")
-    assert "trained with full ionisation" in refused["status"][0] and math.isnan(refused["vbi_V"][0])
+    assert "the bundle learned full ionisation here" in refused["status"][0] and math.isnan(refused["vbi_V"][0])
     auto = radialpn.predict(row, ionisation="incomplete")
     assert auto["engine"][0] == "solver" and auto["ionisation"][0] == "incomplete"
     assert "full ionisation" in auto["engine_note"][0]
+    # below 200 K the bundles learned incomplete ionisation (their training sets: "auto"), so a
+    # cold row asked with "full" goes to the solver, and asked with "auto" stays with the bundle
+    cold = dict(row, temperature_K=100.0)
+    sur = radialpn.predict(cold, engine="surrogate")
+    assert sur["status"][0] == "ok" and sur["ionisation"][0] == "incomplete"
+    auto = radialpn.predict(cold, ionisation="full")
+    assert auto["engine"][0] == "solver" and auto["ionisation"][0] == "full"
+    assert "the bundle learned incomplete ionisation here" in auto["engine_note"][0]
     with pytest.raises(radialpn.DesignError, match="ionisation"):
         radialpn.predict(row, ionisation="partial")
 
@@ -256,4 +264,5 @@ def test_cli_ionisation_flag():
     assert row["ionisation"] == "incomplete" and row["engine"] == "solver"
     buf, out = io.StringIO(), io.StringIO()
     assert main(argv[:-3] + ["--json"], console=Console(file=buf, width=120, color_system=None), out=out) == 0
-    assert json.loads(out.getvalue())["ionisation"] == "full"  # auto at 300 K, shallow B and P
+    row = json.loads(out.getvalue())
+    assert row["ionisation"] == "full" and row["engine"] == "surrogate"  # auto at 300 K, shallow B and P

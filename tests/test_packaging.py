@@ -15,7 +15,7 @@ import pytest
 import radialpn
 
 ROOT = Path(__file__).resolve().parents[1]
-BUNDLES = ("gaas-pcore", "gaas-ncore", "inp-pcore", "inp-ncore")
+BUNDLES = tuple(f"{m}-{c}core" for m in ("gaas", "inp", "si", "ge", "gan", "inas") for c in "pn")  # models/specs
 #: what `pip install radialpn` may bring: numpy, rich and rich's own dependencies (common practice:
 #: rich 13-15 depends on markdown-it-py (with mdurl) and pygments), plus the venv's own tools
 BASE_DISTRIBUTIONS = {"radialpn", "numpy", "rich", "markdown-it-py", "mdurl", "pygments", "tomli", "pip", "setuptools",

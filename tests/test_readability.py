@@ -122,9 +122,9 @@ def test_tables_fit_80_columns_with_units():
 
 
 def test_ask_drops_the_flag_once_verified():
-    # a wire on the edge of the shell's depletion (regime probability 0.85 < 0.9): flagged
+    # a wire on the edge of the shell's depletion (regime probability 0.86 < 0.9): flagged
     # without --verify, settled with it
-    argv = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "80nm", "--shell-thickness", "36.5nm",
+    argv = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "80nm", "--shell-thickness", "36.6nm",
             "--core-doping", "1e18", "--shell-doping", "2e18", "--dit", "5e12"]
     _, text, _ = run(argv)
     assert "confirm with --verify" in " ".join(text.split())

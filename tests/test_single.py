@@ -99,7 +99,7 @@ def test_model_subsets_give_the_full_answer_for_what_they_evaluate(models):
     # the interval's conformal quantile is the predicted regime's, so "difficulty" brings the regime
     kept = {"vbi": ["vbi_V"], "difficulty": ["regime", "regime_prob", "confirm_with_solver"], "regime": ["regime", "regime_prob", "confirm_with_solver"],
             "shell_neutral_nm": ["shell_neutral_nm", "regime", "regime_prob", "confirm_with_solver"]}
-    cols = {"vbi0_V", "status", "in_domain", "engine"} | {c for m in models for c in kept[m]}
+    cols = {"vbi0_V", "status", "in_domain", "engine", "ionisation"} | {c for m in models for c in kept[m]}
     if {"vbi", "difficulty"} <= set(models):
         cols |= {"vbi_low_V", "vbi_high_V"}
     for k in cols:

@@ -1,6 +1,7 @@
 """Surrogate runtime and bundles: exact export of the fitted models, safe loading, the API,
 domain flags, the light import, and the round trip solver -> data -> fit -> surrogate."""
 
+import dataclasses
 import json
 import shutil
 import subprocess
@@ -17,6 +18,8 @@ from radialpn.training import (GaussianProcess, TreeEnsemble, bundle_checksums, 
                                 write_bundle)
 
 ROOT = Path(__file__).resolve().parents[1]
+#: the shipped bundles: every material of the table, both core types (models/specs)
+SHIPPED = tuple(f"{m}-{c}core" for m in ("gaas", "inp", "si", "ge", "gan", "inas") for c in "pn")
 DESIGN = dict(material="GaAs", core_type="p", core_radius_nm=60.0, shell_thickness_nm=40.0, core_doping_cm3=1e18,
               shell_doping_cm3=1e18, dit_cm2eV=1e12, cnl_eV=0.5, temperature_K=300.0)
 
@@ -108,7 +111,7 @@ def test_mondrian_covers_each_group_where_pooled_does_not():
 @pytest.fixture(scope="module")
 def shipped():
     found = {name: path for name, _, _, path in radialpn.available()}
-    assert {"gaas-pcore", "gaas-ncore", "inp-pcore", "inp-ncore"} <= set(found)
+    assert set(SHIPPED) <= set(found)
     return found
 
 
@@ -160,10 +163,16 @@ def test_predict_api_forms_and_columns(shipped):
 
 
 def test_outside_domain_flagged_not_extrapolated(shipped):
-    out = radialpn.predict([dict(DESIGN, core_radius_nm=800.0), dict(DESIGN, material="Si"), DESIGN], engine="surrogate")
+    g = radialpn.get_material("GaAs")
+    if "gaas-nobundle-sur" not in [x.lower() for x in radialpn.material_names()]:
+        radialpn.register_material(radialpn.Material("GaAs-nobundle-sur", g.band_gap_300_eV, g.varshni_alpha_eV_K,
+                                                     g.varshni_beta_K, g.permittivity_rel, g.nc_300_cm3,
+                                                     g.nv_300_cm3, g.cnl_eV))
+    out = radialpn.predict([dict(DESIGN, core_radius_nm=800.0), dict(DESIGN, material="GaAs-nobundle-sur"), DESIGN],
+                           engine="surrogate")
     assert not out["in_domain"][0] and "core_radius_nm 800 not in [10, 300]" in out["status"][0]
     assert np.isnan(out["vbi_V"][0]) and out["regime"][0] == ""
-    assert "no surrogate bundle for Si" in out["status"][1] and out["status"][2] == "ok"
+    assert "no surrogate bundle for GaAs-nobundle-sur" in out["status"][1] and out["status"][2] == "ok"
 
 
 def test_shipped_bundles_agree_with_fresh_solver_runs(shipped):
@@ -171,7 +180,7 @@ def test_shipped_bundles_agree_with_fresh_solver_runs(shipped):
     # bounds with room for sampling noise at n = 800 (regime >= 98.5 %: the card's 99.8 % minus
     # ~3 sigma; mean error <= 3 mV; coverage >= 92 %: 95 % minus ~3.5 sigma).
 
-    for name in ("gaas-pcore", "gaas-ncore", "inp-pcore", "inp-ncore"):
+    for name in SHIPPED:
         v = validate_model(load_bundle(shipped[name]), n=800, seed=4242, n_jobs=1)
         assert v["regime_accuracy"] >= 0.985, name
         assert v["vbi_mean_mV"] <= 3.0, name
@@ -204,7 +213,7 @@ def test_recalibration_rebuilds_the_shipped_quantiles_from_the_spec_alone(shippe
 
 
 def test_card_states_targets_and_caution(shipped):
-    for name in ("gaas-pcore", "gaas-ncore", "inp-pcore", "inp-ncore"):
+    for name in SHIPPED:
         card = (shipped[name] / "CARD.md").read_text()
         assert "design estimates, not measurements" in card and "## Validation" in card and "## Limits" in card
         meta = json.loads((shipped[name] / "bundle.json").read_text())
@@ -222,25 +231,35 @@ def test_runtime_import_is_light():
 
 
 def test_round_trip_solver_data_fit_surrogate(tmp_path):
-    # The whole pipeline on a small domain: solver -> dataset -> fit -> bundle -> predictions on
-    # fresh solver runs within the bundle's own stated error bound (its 95 % intervals): with
-    # 1000 fresh rows coverage >= 92 % (95 % minus ~4 sigma), and regime accuracy >= 97 %.
+    # The whole pipeline on a small domain of a user material (the one-command path of
+    # docs/bundles.md, with the solver's worker processes): solver -> dataset -> fit -> bundle ->
+    # predictions on fresh solver runs within the bundle's own stated error bound (its 95 %
+    # intervals): with 1000 fresh rows coverage >= 92 % (95 % minus ~4 sigma), and regime
+    # accuracy >= 97 %. D_it runs from 0 and the temperature crosses the 200 K at which "auto"
+    # turns incomplete ionisation on.
+    user = [m for m in radialpn.load_material_file(ROOT / "examples" / "AlGaAs.toml")][0]
+    mine = radialpn.material_from_dict("RoundTrip-AlGaAs", {
+        **{k: getattr(user, k) for k in ("band_gap_300_eV", "varshni_alpha_eV_K", "varshni_beta_K", "permittivity_rel",
+                                         "nc_300_cm3", "nv_300_cm3", "cnl_eV")},
+        "donor_ionisation_eV": 0.006, "acceptor_ionisation_eV": 0.03})
+    radialpn.register_material(mine)
     spec = tmp_path / "small.toml"
     spec.write_text("""
 [bundle]
 name = "roundtrip"
-material = "GaAs"
+material = "RoundTrip-AlGaAs"
 core_type = "p"
+ionisation = "auto"
 seed = 5
 [variables]
 core_radius_nm = { min = 20, max = 200, transform = "log" }
 shell_thickness_nm = { min = 5, max = 200, transform = "log" }
 core_doping_cm3 = { min = 1e17, max = 1e19, transform = "log" }
-dit_cm2eV = { min = 1e11, max = 1e13, transform = "log" }
+dit_cm2eV = { min = 0, max = 1e13, transform = "shifted-log", offset = 1e11 }
+temperature_K = { min = 150, max = 350 }
 [fixed]
 shell_doping_cm3 = 1e18
-cnl_eV = 0.5
-temperature_K = 300
+cnl_eV = 0.6
 interlayer_nm = 0
 [sizes]
 train = 6000
@@ -252,9 +271,17 @@ shard_rows = 1024
 """)
     from radialpn.training import train_bundle
 
-    report = train_bundle(spec, tmp_path / "data", tmp_path / "bundle", n_jobs=1, validate_rows=1000,
+    report = train_bundle(spec, tmp_path / "data", tmp_path / "bundle", n_jobs=2, validate_rows=1000,
                           validate_seed=99, log=lambda m: None, gp_points=(200, 400, 200))
     assert report["regime_accuracy"] >= 0.97
     assert report["interval_coverage"] >= 0.92
     m = load_bundle(tmp_path / "bundle")
-    assert m.predict(dict(DESIGN, core_doping_cm3=3e18))["in_domain"][0]
+    design = dict(DESIGN, material="RoundTrip-AlGaAs", core_doping_cm3=3e18, cnl_eV=0.6, dit_cm2eV=0.0)
+    assert m.predict(design)["in_domain"][0] and m.predict(dict(design, temperature_K=160.0))["status"][0] == "ok"
+    # the bundle holds the material it was trained for: a changed definition is refused, by field
+    radialpn.register_material(dataclasses.replace(mine, permittivity_rel=13.0))
+    try:
+        with pytest.raises(BundleError, match="permittivity_rel = 12.05 .* now gives 13.0: retrain it"):
+            load_bundle(tmp_path / "bundle")
+    finally:
+        radialpn.register_material(mine)

@@ -20,7 +20,9 @@ def _meets(key, value):
 
 def render_card(meta: dict) -> str:
     v = meta.get("validation")
-    dom = "\n".join(f"| {k} | {lo:g} | {hi:g} | {meta['transforms'].get(k, 'linear')} |"
+    offsets = meta.get("offsets", {})
+    dom = "\n".join(f"| {k} | {lo:g} | {hi:g} | {meta['transforms'].get(k, 'linear')}"
+                    + (f" (offset {offsets[k]:g})" if k in offsets else "") + " |"
                     for k, (lo, hi) in meta["domain"].items())
     fixed = ", ".join(f"{k} = {x:g}" for k, x in meta.get("fixed", {}).items()) or "none"
     lines = [
@@ -103,7 +105,11 @@ def render_card(meta: dict) -> str:
         ]
     lines += [
         "## Limits",
-        "- Physics of the reference solver: full ionisation, surface states uniform in energy about one neutral "
+        "- Physics of the reference solver: "
+        + ("full ionisation" if meta.get("ionisation", "full") == "full" else
+           "dopant ionisation as `--ionisation auto` resolves it (incomplete below 200 K or for a deep dopant, "
+           "else full); a design asked with another model is answered by the solver")
+        + ", surface states uniform in energy about one neutral "
         "level, no fixed charge, no interlayer (fixed to 0), equilibrium (no light, no bias).",
         "- The regime is the solver's: a region keeps a neutral part where its majority-carrier density reaches half "
         "its doping. Near that boundary the answer is genuinely uncertain; read `regime_prob`.",

@@ -38,7 +38,7 @@ def recalibrate_bundle(path, spec_path, n_jobs: int = -1, solved: dict | None = 
     meta.setdefault("conformal", {}).update(smooth_points=SMOOTH_POINTS, smooth_dex=SMOOTH_DEX)
     model = SurrogateModel(meta, arrays, path)  # scored with the runtime's default smoothing
     designs = split_designs(spec, "calibration")
-    truth = solved if solved is not None else solve(designs, spec.statistics, n_jobs=n_jobs, ionisation="full")
+    truth = solved if solved is not None else solve(designs, spec.statistics, n_jobs=n_jobs, ionisation=spec.ionisation)
     if len(truth["status"]) != len(designs["core_radius_nm"]):
         raise BundleError(f"bundle {path.name}: {len(truth['status'])} solved calibration rows for "
                           f"{len(designs['core_radius_nm'])} designs of the spec's calibration split")

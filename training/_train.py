@@ -4,7 +4,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from .. import get_material
 from .._bundle import read_bundle, write_bundle
+from .._materials import material_parameters
 from .._model import SurrogateModel
 
 from ._card import render_card
@@ -42,6 +44,8 @@ def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, va
         name=spec.name, material=spec.material, core_type=spec.core_type, statistics=spec.statistics,
         domain={v.name: [v.lo, v.hi] for v in spec.variables},
         transforms={v.name: v.transform for v in spec.variables}, fixed=dict(spec.fixed),
+        material_parameters=material_parameters(get_material(spec.material)),
+        offsets={v.name: v.offset for v in spec.variables if v.transform == "shifted-log"}, ionisation=spec.ionisation,
         solver_version=SOLVER_VERSION, spec_sha256=spec.digest(), fitted_with=library_versions(),
     )
     write_bundle(out_dir, meta, arrays, render_card(meta))
@@ -68,7 +72,8 @@ def validate_bundle(path, rows=6000, seed=777, n_jobs=-1, write=False, targeted=
         rare = rare_regimes(report)
         if rare:
             d = targeted_designs(model, rare, seed + 1)
-            report["targeted"] = score_targeted(model, d, solve(d, model.statistics, n_jobs=n_jobs), seed + 1, rare)
+            report["targeted"] = score_targeted(model, d, solve(d, model.statistics, n_jobs=n_jobs,
+                                                                       ionisation=model.ionisation_), seed + 1, rare)
     if write:
         meta["validation"] = report
         write_bundle(Path(path), meta, arrays, render_card(meta))
