@@ -22,7 +22,8 @@ import numpy as np
 
 from ._depletion import material_arrays, prepare
 from ._design import DesignTable
-from ._ionisation import unionised
+from ._ionisation import row_dopants, unionised
+from ._materials import get_material
 from ._roots import solve_bracketed
 from ._statistics import intrinsic_density, occupancy, reduced_level
 
@@ -62,7 +63,7 @@ def neutral_level(N, dos_major, dos_minor, Eg, kt, statistics, level=None, degen
     return y
 
 
-def bulk_levels(table: DesignTable, prob: dict, dopants, statistics: str) -> dict:
+def exact_levels(table: DesignTable, prob: dict, dopants, statistics: str) -> dict:
     """Exact-neutrality bulk levels of the mirrored p-core problem ``prob`` (``_depletion.prepare``
     of ``table``): ``y_core``, ``y_shell`` (E_F - E_v of the neutral core and shell [eV]) and
     the arrays they came from, ``kT`` [eV] and the core's majority/minority band densities of
@@ -83,7 +84,7 @@ def bulk_levels(table: DesignTable, prob: dict, dopants, statistics: str) -> dic
 
 
 def vbi0_bound(table: DesignTable, vbi0_V, statistics: str, ionisation: str = "full") -> np.ndarray:
-    """V_bi0 [V] by exact neutrality (``bulk_levels``) for the rows of ``table`` whose intrinsic
+    """V_bi0 [V] by exact neutrality (``exact_levels``) for the rows of ``table`` whose intrinsic
     density exceeds ``INTRINSIC_SHARE`` of either doping; elsewhere the majority-only ``vbi0_V``
     [V] the depletion engine gave. What the reference solver reports as V_bi0, so the bound
     0 <= V_bi <= V_bi0 that the surrogate enforces is the solver's."""
@@ -94,8 +95,6 @@ def vbi0_bound(table: DesignTable, vbi0_V, statistics: str, ionisation: str = "f
     if table.n == 1:  # one design (the warm single query): plain floats
         if not table.ok[0]:
             return vbi0
-        from ._materials import get_material
-
         m, t = get_material(str(table.material[0])), float(v["temperature_K"][0])
         ni = float(intrinsic_density(m.band_gap(t), m.nc(t), m.nv(t), t))
         near = np.array([ni > INTRINSIC_SHARE * min(float(v["core_doping_cm3"][0]), float(v["shell_doping_cm3"][0]))])
@@ -106,13 +105,11 @@ def vbi0_bound(table: DesignTable, vbi0_V, statistics: str, ionisation: str = "f
             near = table.ok & (ni > INTRINSIC_SHARE * np.minimum(v["core_doping_cm3"], v["shell_doping_cm3"]))
     if not near.any():
         return vbi0
-    from ._ionisation import row_dopants
-
     rows = np.flatnonzero(near)
     sub = table.take(rows)
     incomplete, _, dop = row_dopants(sub, ionisation)
     dop = dop if incomplete.any() else None
     prob, _ = prepare(sub, statistics, dop)
-    lv = bulk_levels(sub, prob, dop, statistics)
+    lv = exact_levels(sub, prob, dop, statistics)
     vbi0[rows] = lv["y_shell"] - lv["y_core"]
     return vbi0

@@ -70,15 +70,14 @@ def ionised_fraction(level_minus_fermi_eV, kt_eV, degeneracy=2.0, share=1.0):
 
 def _any_deep(material) -> bool:
     """Whether any of the (canonical) material names has a dopant ``DEEP_EV`` deep or deeper."""
-    from ._materials import material_names
-
-    deep = []
-    for name in material_names():
+    names = {str(material[0])} if len(material) and (material == material[0]).all() else set(map(str, material))
+    for name in names:
+        if not name:
+            continue
         m = get_material(name)
-        levels = (m.donor_ionisation_eV, m.acceptor_ionisation_eV)
-        if any(np.isfinite(e) and e >= DEEP_EV for e in levels):
-            deep.append(name)
-    return any(bool(np.any(material == name)) for name in deep)
+        if any(np.isfinite(e) and e >= DEEP_EV for e in (m.donor_ionisation_eV, m.acceptor_ionisation_eV)):
+            return True
+    return False
 
 
 def row_dopants(table, ionisation: str):

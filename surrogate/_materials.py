@@ -254,6 +254,18 @@ def material_parameters(material: Material) -> dict:
     return out
 
 
+def material_default(key: str):
+    """The default of an optional ``Material`` field as ``material_parameters`` writes it (NaN as
+    None); "missing" for a required field, which has none."""
+    import dataclasses
+
+    for f in dataclasses.fields(Material):
+        if f.name == key and f.default is not dataclasses.MISSING:
+            v = float(f.default)
+            return None if v != v else v
+    return "missing"
+
+
 def material_from_dict(name: str, values: dict) -> Material:
     """Build a ``Material`` from a mapping of the field names of ``Material``, checking each
     against its allowed range. ``sources`` (a mapping) is optional but recommended."""

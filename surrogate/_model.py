@@ -2,7 +2,7 @@
 
 ``load(material, core_type)`` returns a ``SurrogateModel``; its one ``predict(designs)`` takes
 what ``deplete`` takes and returns the output columns of the design table (docs/design-table.md) plus ``regime_prob``,
-``vbi_low_V``, ``vbi_high_V``, ``in_domain`` and ``confirm_with_solver``. Designs outside the
+``vbi_low_V``, ``vbi_high_V``, ``in_domain``, ``confirm_with_solver`` and ``ionisation``. Designs outside the
 bundle's trained domain are flagged and get no numbers (never extrapolated).
 """
 
@@ -14,7 +14,7 @@ from ._bulk import vbi0_bound
 from ._bundle import MAX_BYTES, BundleError, find_bundles, read_bundle
 from ._design import REGIMES, DesignTable, normalize_designs
 from ._features import DIT_FLOOR, FEATURE_NAMES, FEATURES_VERSION, features
-from ._ionisation import row_dopants
+from ._ionisation import check_ionisation, row_dopants
 from ._gp import GaussianProcess
 from ._single import features_one, one_design
 from ._trees import TreeEnsemble
@@ -200,6 +200,11 @@ class SurrogateModel:
         """
         models = _needed(models, second_opinion)
         table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
+        if ionisation is not None:
+            ionisation = check_ionisation(ionisation)
+            refused = row_dopants(table, ionisation)[1]  # "incomplete" for a material without dopant levels
+            if refused is not None:
+                table = DesignTable(table.n, table.material, table.p_core, table.values, refused)
         n = table.n
         why = self.domain_check(table)
         status = table.status.copy()
@@ -224,7 +229,8 @@ class SurrogateModel:
         rows = np.flatnonzero(in_domain)
         if rows.size:
             sub = table.take(rows)
-            one = features_one(sub, self.statistics, self.ionisation_) if sub.n == 1 else None  # scalar fast path
+            inc_sub = incomplete[rows]
+            one = features_one(sub, self.statistics, self.ionisation_, bool(inc_sub[0])) if sub.n == 1 else None  # scalar
             X, da = one if one is not None else features(sub, self.statistics, self.ionisation_)
             good = np.isfinite(X).all(1) & (da["status"] == "ok")
             forest, sl = self._forest(models)
@@ -244,7 +250,7 @@ class SurrogateModel:
             # majority-only V_bi0 undershoots where n_i nears a doping (hot Ge, InAs)
             vbi0 = vbi0_bound(sub, da["vbi0_V"], self.statistics, self.ionisation_)
             residual = raw[:, sl["vbi"]][:, 0]  # NaN when "vbi" is not evaluated: no neighbours then
-            centre = self._vbi_centre(sub, da, residual) if "vbi" in models else da["vbi_V"] + residual
+            centre = self._vbi_centre(sub, da, residual, inc_sub) if "vbi" in models else da["vbi_V"] + residual
             half = self.q_gbm_by_regime_[code] * np.exp(raw[:, sl["difficulty"]][:, 0])
             vbi = np.clip(centre, 0.0, vbi0)
             names = np.array(REGIMES, dtype=object)
@@ -303,7 +309,7 @@ class SurrogateModel:
                 "ionisation": np.where(status == "ok", np.where(incomplete, "incomplete", "full"), "").astype(object),
                 **gp_cols, **prob_cols}
 
-    def _vbi_centre(self, sub: DesignTable, da: dict, residual: np.ndarray) -> np.ndarray:
+    def _vbi_centre(self, sub: DesignTable, da: dict, residual: np.ndarray, incomplete=None) -> np.ndarray:
         """V_bi before the bounds [V]: the depletion engine's V_bi plus the trees' residual [V]
         averaged over ``SMOOTH_POINTS`` designs within +-``SMOOTH_DEX`` decades of radius,
         shell, dopings and D_it (``smooth_offsets``). Trees are step functions of their inputs,
@@ -313,7 +319,8 @@ class SurrogateModel:
         Lattice Methods for Multiple Integration, Oxford 1994, from memory), which splits each such
         jump into ``SMOOTH_POINTS`` smaller ones. Rows whose neighbours the depletion engine
         cannot answer keep the unsmoothed residual. The conformal quantiles are calibrated on
-        this centre (``conformal_scores``)."""
+        this centre (``conformal_scores``). ``incomplete``: the rows' resolved ionisation, if
+        known (the neighbours share it: it depends on material and temperature alone)."""
         off = smooth_offsets(self.smooth_points, self.smooth_dex)
         k, n = off.shape[0], sub.n
         if k <= 1 or n == 0:
@@ -325,7 +332,8 @@ class SurrogateModel:
                 for i, c in enumerate(SMOOTH_COLUMNS):
                     vals[c] = sub.values[c] * 10.0 ** off[j, i]
                 one = features_one(DesignTable(n=1, material=sub.material, p_core=sub.p_core, values=vals,
-                                               status=sub.status), self.statistics, self.ionisation_)
+                                               status=sub.status), self.statistics, self.ionisation_,
+                                   None if incomplete is None else bool(incomplete[0]))
                 if one is None:
                     break  # the general path below decides (and keeps the unsmoothed residual)
                 near_rows.append(one[0][0])
@@ -406,7 +414,7 @@ def _check_meta(meta: dict) -> dict:
     """Field-by-field check of bundle.json: identity, domain, fixed values, calibration."""
     from ._design import NUMERIC
     from ._errors import MaterialError
-    from ._materials import get_material, material_parameters
+    from ._materials import get_material, material_default, material_parameters
     from ._statistics import STATISTICS
 
     name = meta.get("name")
@@ -427,7 +435,8 @@ def _check_meta(meta: dict) -> dict:
         need(isinstance(recorded, dict), "material_parameters must be a table")
         now = material_parameters(get_material(material))
         for key, v in now.items():
-            r = recorded.get(key, "missing")
+            # a field a later radialpn added is absent from older bundles: it matches at its default
+            r = recorded.get(key, material_default(key))
             same = (r is None and v is None) or (isinstance(r, (int, float)) and not isinstance(r, bool) and v is not None
                                                  and abs(r - v) <= 1e-12 * max(abs(v), 1e-300))
             need(same, f"records {material} with {key} = {r} (its training set); the material table now gives {v}: "
@@ -442,6 +451,17 @@ def _check_meta(meta: dict) -> dict:
         a, b = NUMERIC[col][:2]
         need(np.isfinite([lo, hi]).all() and a <= lo < hi <= b, f"domain of {col} {v} is not inside [{a:g}, {b:g}]")
         domain[col] = (lo, hi)
+    transforms, offsets = meta.get("transforms", {}), meta.get("offsets", {})
+    need(isinstance(transforms, dict) and isinstance(offsets, dict), "transforms and offsets must be tables")
+    for col, tr in transforms.items():
+        need(col in domain and tr in ("log", "linear", "shifted-log"),
+             f"transform of {col!r} must be log, linear or shifted-log for a domain column (got {tr!r})")
+        if tr == "shifted-log":
+            s = offsets.get(col)
+            need(isinstance(s, (int, float)) and not isinstance(s, bool) and np.isfinite(s) and s > 0,
+                 f"offsets.{col} must be a finite positive number for its shifted-log transform (got {s!r})")
+        elif tr == "log":
+            need(domain[col][0] > 0, f"domain of {col} must start above 0 for its log transform")
     fixed = meta.get("fixed", {})
     need(isinstance(fixed, dict) and all(c in NUMERIC and isinstance(x, (int, float)) and np.isfinite(x)
                                          for c, x in fixed.items()), "fixed values are malformed")
@@ -460,7 +480,7 @@ def _check_meta(meta: dict) -> dict:
     need(isinstance(dex, (int, float)) and not isinstance(dex, bool) and np.isfinite(dex) and 0 <= dex <= 0.05,
          f"conformal.smooth_dex must be in [0, 0.05] decades (got {dex!r})")
     vals.update(smooth_points=k, smooth_dex=float(dex))
-    ion = meta.get("ionisation", "full")  # absent: a bundle of solver <= 1.2, trained with full ionisation
+    ion = meta.get("ionisation", "full")  # absent: a bundle of radialpn <= 0.2, trained with full ionisation
     need(ion in ("full", "auto"), f"ionisation must be 'full' or 'auto' (got {ion!r})")
     vals["ionisation"] = ion
     return {"identity": (name, material, meta["core_type"], meta["statistics"]), "domain": domain,

@@ -283,13 +283,16 @@ def _solve(NA, ND, a, R, eps, Eg, dp, dn, Dit, Ecnl):
     return out
 
 
-def features_one(table: DesignTable, statistics: str, ionisation: str = "full"):
+def features_one(table: DesignTable, statistics: str, ionisation: str = "full", incomplete: bool | None = None):
     """``_features.features`` for a one-row validated table: (X (1, n_features), depletion
     output mapping of one-element arrays), or None when the general path must answer (an
-    interlayer, or a row ``ionisation`` resolves to incomplete ionisation)."""
+    interlayer, or a row ``ionisation`` resolves to incomplete ionisation; ``incomplete``: that
+    resolution when the caller has it already)."""
     if table.n != 1 or table.status[0] != "ok":
         return None
-    if ionisation != "full" and row_dopants(table, ionisation)[0][0]:
+    if incomplete is None:
+        incomplete = ionisation != "full" and bool(row_dopants(table, ionisation)[0][0])
+    if incomplete:
         return None
     v = {k: float(x[0]) for k, x in table.values.items()}
     if v["interlayer_nm"] > 0:

@@ -61,6 +61,12 @@ CASES = {
     "smoothing out of range": (_bad_meta(lambda m: m["conformal"].update(smooth_points=0)), None,
                                "conformal.smooth_points"),
     "unknown grouping": (_bad_meta(lambda m: m["conformal"].update(groups_by="material")), None, "groups_by"),
+    "shifted-log without its offset": (_bad_meta(lambda m: m["offsets"].pop("dit_cm2eV")), None, "offsets.dit_cm2eV"),
+    "unknown transform": (_bad_meta(lambda m: m["transforms"].update(core_radius_nm="cubic")), None,
+                          "transform of 'core_radius_nm'"),
+    "other material parameters": (_bad_meta(lambda m: m["material_parameters"].update(band_gap_300_eV=1.5)), None,
+                                  "band_gap_300_eV = 1.5 (its training set); the material table now gives 1.424"),
+    "unknown ionisation model": (_bad_meta(lambda m: m.update(ionisation="partial")), None, "ionisation must be"),
 }
 
 
@@ -102,6 +108,17 @@ def test_load_refuses_unknown_core_type_and_material():
         radialpn.load("GaAs", "pizza")
     with pytest.raises(radialpn.MaterialError):
         radialpn.load("Kryptonite", "p")
+
+
+def test_bundle_without_a_later_material_field_loads(source, tmp_path):
+    # a Material field added in a later release is absent from older bundles: it matches at its
+    # default (NaN for a Mott density), so they keep loading; a required field may not be absent
+    d = _copy(source, tmp_path, "older")
+    _rewrite(d, _bad_meta(lambda m: m["material_parameters"].pop("acceptor_mott_cm3")))
+    assert radialpn.load_bundle(d).name == "gaas-pcore"
+    _rewrite(d, _bad_meta(lambda m: m["material_parameters"].pop("band_gap_300_eV")))
+    with pytest.raises(radialpn.BundleError, match="band_gap_300_eV = missing"):
+        radialpn.load_bundle(d)
 
 
 def test_bundle_without_per_regime_quantiles_loads_with_the_pooled_one(source, tmp_path):

@@ -75,16 +75,51 @@ def test_shifted_log_reaches_zero_and_round_trips():
     # D_it from 0: x + offset s is log-uniform, so u = 0 gives exactly min = 0 and u = 1 gives
     # max; to_unit inverts from_unit (1e-12: a float64 log/exp round trip); and x = 2 s sits at
     # u = log10(3) / log10((max + s) / s) by the transform's definition (1e-12 relative)
-    data = {**BASE, "variables": {**BASE["variables"],
-                                  "dit_cm2eV": {"min": 0, "max": 1e14, "transform": "shifted-log", "offset": 1e10}}}
-    var = [v for v in spec_from_dict(data).variables if v.name == "dit_cm2eV"][0]
-    u = np.linspace(0, 1, 1001)
-    x = var.from_unit(u)
-    assert x[0] == 0.0 and x[-1] == pytest.approx(1e14, rel=1e-12) and (np.diff(x) > 0).all()
-    np.testing.assert_allclose(var.to_unit(x), u, rtol=0, atol=1e-12)
-    assert var.to_unit(2e10) == pytest.approx(np.log10(3) / np.log10((1e14 + 1e10) / 1e10), rel=1e-12)
+    for offset in (1e10, 3e10, 7e9):  # 10**log10(s) - s rounds to 0 for the first only
+        data = {**BASE, "variables": {**BASE["variables"],
+                                      "dit_cm2eV": {"min": 0, "max": 1e14, "transform": "shifted-log", "offset": offset}}}
+        var = [v for v in spec_from_dict(data).variables if v.name == "dit_cm2eV"][0]
+        u = np.linspace(0, 1, 1001)
+        x = var.from_unit(u)
+        assert x[0] == 0.0 and x[-1] == pytest.approx(1e14, rel=1e-12) and (np.diff(x) > 0).all()
+        np.testing.assert_allclose(var.to_unit(x), u, rtol=0, atol=1e-12)
+        assert var.to_unit(2 * offset) == pytest.approx(np.log10(3) / np.log10((1e14 + offset) / offset), rel=1e-12)
     # a spec without the new keys keeps its digest (bundles built before them still recalibrate)
     assert "ionisation" not in spec().to_dict() and all("offset" not in v for v in spec().to_dict()["variables"])
+    # pinned: the 0.2 GaAs p-core spec (git show 95711bd:models/specs/gaas-pcore.toml) digests as
+    # its 0.2 bundle recorded, so the keys added since leave old specs' digests alone
+    old = {"bundle": {"name": "gaas-pcore", "material": "GaAs", "core_type": "p", "statistics": "fermi-dirac",
+                      "seed": 20261201},
+           "variables": {**BASE["variables"], "cnl_eV": {"min": 0.30, "max": 0.70, "transform": "linear"},
+                         "temperature_K": {"min": 250, "max": 400, "transform": "linear"}},
+           "fixed": {"interlayer_nm": 0},
+           "sizes": {"train": 200000, "refine_rounds": 2, "refine_fraction": 0.4, "calibration": 10000, "test": 6000,
+                     "shard_rows": 2048}}
+    assert spec_from_dict(old).digest().startswith("055e91cb")
+
+
+def test_changed_material_is_not_resumed(tmp_path):
+    # a dataset records its material's parameters: after the definition changes, the same spec
+    # must not resume the shards solved with the old one
+    import dataclasses
+
+    import radialpn
+
+    g = radialpn.get_material("GaAs")
+    mine = radialpn.Material("GaAs-resume-test", g.band_gap_300_eV, g.varshni_alpha_eV_K, g.varshni_beta_K,
+                             g.permittivity_rel, g.nc_300_cm3, g.nv_300_cm3, g.cnl_eV)
+    radialpn.register_material(mine)
+    s = spec_from_dict({**BASE, "bundle": {**BASE["bundle"], "material": "GaAs-resume-test"},
+                        "sizes": {"train": 100, "refine_rounds": 0, "calibration": 0, "test": 0, "shard_rows": 64}})
+    build_dataset(s, tmp_path, n_jobs=1)
+    try:
+        radialpn.register_material(dataclasses.replace(mine, permittivity_rel=13.5))
+        with pytest.raises(DatasetError, match="another"):
+            build_dataset(spec_from_dict({**BASE, "bundle": {**BASE["bundle"], "material": "GaAs-resume-test"},
+                                          "sizes": {"train": 100, "refine_rounds": 0, "calibration": 0, "test": 0,
+                                                    "shard_rows": 64}}), tmp_path, n_jobs=1)
+    finally:
+        radialpn.register_material(mine)
 
 
 def test_rows_complete_with_version_and_status(built):

@@ -31,8 +31,13 @@ def test_surrogate_never_breaks_physical_bounds_or_its_own_regime():
     for k, (material, core_type) in enumerate(BUNDLES):
         out = radialpn.predict(_uniform_in_domain(8_400, k + 1, core_type, material), engine="surrogate")
         ok = out["status"] == "ok"
-        # a design without depletion features (an accumulating surface) is refused, not answered
-        assert ok.mean() > 0.5 and all("depletion features are undefined" in x for x in out["status"][~ok])
+        # a design without depletion features (an accumulating surface) is refused, not answered:
+        # measured 75 % answered for Ge n-core, 84 % InAs n-core, 91 % Ge and InAs p-core, >= 97.7 %
+        # for the rest; the floors sit 5 points below
+        floor = {("Ge", "n"): 0.70, ("InAs", "n"): 0.79, ("Ge", "p"): 0.86, ("InAs", "p"): 0.86}.get((material, core_type),
+                                                                                                  0.95)
+        assert ok.mean() > floor, (material, core_type, ok.mean())
+        assert all("depletion features are undefined" in x for x in out["status"][~ok])
         v, v0, lo, hi = (out[k][ok] for k in ("vbi_V", "vbi0_V", "vbi_low_V", "vbi_high_V"))
         assert (lo >= 0).all() and (lo <= v).all() and (v <= hi).all() and (hi <= v0).all()
         regime = out["regime"][ok]

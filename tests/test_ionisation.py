@@ -228,6 +228,8 @@ def test_engines_route_rows_whose_model_differs_from_the_bundles():
     assert "the bundle learned incomplete ionisation here" in auto["engine_note"][0]
     with pytest.raises(radialpn.DesignError, match="ionisation"):
         radialpn.predict(row, ionisation="partial")
+    with pytest.raises(radialpn.DesignError, match="ionisation"):  # the bundle's own predict checks it too
+        radialpn.load("GaAs", "p").predict(row, ionisation="Fully")
 
 
 def test_material_without_dopant_levels():

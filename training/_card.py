@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import datetime
 
+from .._ionisation import AUTO_BELOW_K, DEEP_EV
+
 TARGETS = {  # issue 5's targets, measured on fresh solver runs
     "regime_accuracy": (">=", 0.995), "vbi_mean_mV": ("<=", 3.0), "vbi_p99_mV": ("<=", 20.0),
     "interval_coverage": ("in", (0.94, 0.96)), "regime_coverage": ("in", (0.93, 0.97)),
@@ -107,8 +109,9 @@ def render_card(meta: dict) -> str:
         "## Limits",
         "- Physics of the reference solver: "
         + ("full ionisation" if meta.get("ionisation", "full") == "full" else
-           "dopant ionisation as `--ionisation auto` resolves it (incomplete below 200 K or for a deep dopant, "
-           "else full); a design asked with another model is answered by the solver")
+           f"dopant ionisation as `--ionisation auto` resolves it (incomplete below {AUTO_BELOW_K:g} K or for a "
+           f"dopant {DEEP_EV:g} eV deep or deeper, where the material table gives dopant levels; else full); a "
+           "design asked with another model is answered by the solver")
         + ", surface states uniform in energy about one neutral "
         "level, no fixed charge, no interlayer (fixed to 0), equilibrium (no light, no bias).",
         "- The regime is the solver's: a region keeps a neutral part where its majority-carrier density reaches half "

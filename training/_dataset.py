@@ -28,7 +28,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import INPUT_COLUMNS, OUTPUT_COLUMNS, RadialpnError, get_material, register_material
-from .._materials import is_builtin
+from .._materials import is_builtin, material_parameters
 
 from ._sampling import refinement_points, sobol_points, uniform_points
 from ._solver import SOLVER_VERSION, solve
@@ -126,7 +126,10 @@ def split_designs(spec: DomainSpec, split: str) -> dict:
 
 def _check_manifest(spec: DomainSpec, root: Path) -> None:
     path = root / "manifest.json"
-    want = {"spec_sha256": spec.digest(), "solver_version": SOLVER_VERSION}
+    # the material's parameters too: an edited built-in value must not resume shards solved with
+    # the old one (a manifest without the key, from before 0.3, is refused the same way)
+    want = {"spec_sha256": spec.digest(), "solver_version": SOLVER_VERSION,
+            "material_parameters": material_parameters(get_material(spec.material))}
     if path.exists():
         try:
             have = json.loads(path.read_text())

@@ -21,7 +21,7 @@ import numpy as np
 
 from .._constants import K_B_EV, NM, Q
 from .._depletion import prepare, row_status, outputs, solve_pcore
-from .._bulk import bulk_levels
+from .._bulk import exact_levels
 from .._design import REGIMES, DesignTable, normalize_designs
 from .._errors import DesignError
 from .._ionisation import check_ionisation, ionisation_column, row_dopants
@@ -66,7 +66,7 @@ def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
         sol = solve_pcore(**prob)
         da_out = outputs(sol, **prob)
     da_ok = (row_status(table, prob, sol, da_out, cnl) == "ok") & (il == 0)
-    lv = bulk_levels(table, prob, dop, statistics)  # exact neutrality, both carriers
+    lv = exact_levels(table, prob, dop, statistics)  # exact neutrality, both carriers
     return dict(prob=prob, sol=sol, da_ok=da_ok, kT=lv["kT"], Nv=lv["Nv"], Nc=lv["Nc"], b=prob["a"] + il,
                 y_core=lv["y_core"], y_shell=lv["y_shell"], dopants=dop, table=table, incomplete=incomplete)
 

@@ -62,7 +62,9 @@ class Variable:
         if self.transform in ("log", "shifted-log"):
             s = self.offset if self.transform == "shifted-log" else 0.0
             lo, hi = np.log10(self.lo + s), np.log10(self.hi + s)
-            return np.clip(10.0 ** (lo + u * (hi - lo)) - s, self.lo, self.hi)
+            x = np.clip(10.0 ** (lo + u * (hi - lo)) - s, self.lo, self.hi)
+            # u = 0 is min exactly (10**log10(s) - s need not round to 0 for every offset)
+            return np.where(u <= 0.0, self.lo, x) if self.transform == "shifted-log" else x
         return self.lo + u * (self.hi - self.lo)
 
     def to_unit(self, x):

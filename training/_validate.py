@@ -28,7 +28,7 @@ def fresh_designs(model: SurrogateModel, n: int, seed: int) -> dict:
         if tr in ("log", "shifted-log"):  # uniform in log10(x + offset), as the spec sampled
             s = float(model.meta.get("offsets", {}).get(col, 0.0)) if tr == "shifted-log" else 0.0
             a, b = np.log10(lo + s), np.log10(hi + s)
-            cols[col] = np.clip(10 ** (a + u * (b - a)) - s, lo, hi)
+            cols[col] = np.where(u <= 0.0, lo, np.clip(10 ** (a + u * (b - a)) - s, lo, hi))
         else:
             cols[col] = lo + u * (hi - lo)
     for col, v in model.fixed.items():
