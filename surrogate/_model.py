@@ -278,9 +278,10 @@ class SurrogateModel:
                 gm, gs = self.gp_.predict((X - self.gp_mean_) / self.gp_scale_)
                 gv = da["vbi_V"] + gm
                 gh = self.q_gp_by_regime_[code] * gs
-                gp_cols["vbi_gp_V"][rows] = gv
-                gp_cols["vbi_gp_low_V"][rows] = gv - gh
-                gp_cols["vbi_gp_high_V"][rows] = gv + gh
+                # the same physical bounds as the trees' answer, for the estimate and both ends
+                gp_cols["vbi_gp_V"][rows] = np.clip(gv, 0.0, vbi0)
+                gp_cols["vbi_gp_low_V"][rows] = np.clip(gv - gh, 0.0, vbi0)
+                gp_cols["vbi_gp_high_V"][rows] = np.clip(gv + gh, 0.0, vbi0)
                 flag |= np.abs(gv - vbi) > np.maximum(half, gh)
             if "regime" not in models:
                 regime[rows] = ""

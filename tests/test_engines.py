@@ -40,6 +40,13 @@ def test_surrogate_never_breaks_physical_bounds_or_its_own_regime():
         assert all("depletion features are undefined" in x for x in out["status"][~ok])
         v, v0, lo, hi = (out[k][ok] for k in ("vbi_V", "vbi0_V", "vbi_low_V", "vbi_high_V"))
         assert (lo >= 0).all() and (lo <= v).all() and (v <= hi).all() and (hi <= v0).all()
+        # the Gaussian-process second opinion keeps the same bounds (first 1,000 designs: it is slower)
+        gp = radialpn.predict({c: (x[:1000] if np.ndim(x) else x) for c, x in
+                               _uniform_in_domain(8_400, k + 1, core_type, material).items()},
+                              engine="surrogate", second_opinion=True)
+        g = gp["status"] == "ok"
+        glo, gv, ghi, g0 = (gp[c][g] for c in ("vbi_gp_low_V", "vbi_gp_V", "vbi_gp_high_V", "vbi0_V"))
+        assert (glo >= 0).all() and (glo <= gv).all() and (gv <= ghi).all() and (ghi <= g0).all()
         regime = out["regime"][ok]
         core_kept = np.isin(regime, ("both-neutral", "shell-depleted"))
         shell_kept = np.isin(regime, ("both-neutral", "core-depleted"))
