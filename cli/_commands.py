@@ -125,6 +125,8 @@ def cmd_ask(args, console, out) -> int:
         console.print(Text(f"auto engine: {row['engine_note']}", style="dim"))
     if check is not None:
         console.print(verify_line(row, check))
+    elif args.verify:  # nothing to compare: say so rather than print nothing
+        console.print(Text("verify  the reference solver gave this answer itself; no second run", style="dim"))
     console.print(f"[dim]{CAUTION}[/]")
     return _errors.OK
 

@@ -121,6 +121,16 @@ def test_tables_fit_80_columns_with_units():
     assert f"{100 * v['regime_accuracy']:.2f} %" in text and f"{v['vbi_mean_mV']:.2f} / {v['vbi_p99_mV']:.2f}" in text
 
 
+def test_ask_verify_says_when_the_solver_answered_already():
+    # InAs at its own neutral level lies outside its bundle, so auto answers with the solver:
+    # --verify has nothing to compare and must say so instead of printing nothing
+    argv = ["ask", "--material", "InAs", "--core-type", "p", "--core-radius", "60nm", "--shell-thickness", "40nm",
+            "--core-doping", "1e17", "--shell-doping", "5e16", "--dit", "1e11", "--verify"]
+    code, text, _ = run(argv)
+    flat = " ".join(text.split())
+    assert code == 0 and "by the solver engine" in flat and "gave this answer itself" in flat
+
+
 def test_ask_drops_the_flag_once_verified():
     # a wire on the edge of the shell's depletion (regime probability 0.86 < 0.9): flagged
     # without --verify, settled with it
