@@ -222,8 +222,10 @@ def test_cyclic_reduction_equals_thomas():
 
 def test_near_intrinsic_vbi0_counts_both_carriers():
     # Hot, lightly doped Ge: n_i is comparable to the dopings, so the neutral regions hold
-    # n0 = N/2 + sqrt(N^2/4 + n_i^2) majority carriers (Neamen, Semiconductor Physics and
-    # Devices, 4th ed., eq. 4.60, equation number from memory), and with Boltzmann statistics
+    # n0 = N/2 + sqrt(N^2/4 + n_i^2) majority carriers (neutrality n + N_A = p + N_D with
+    # n p = n_i^2; the same solution in NPTEL course 122101002, lecture 34, "Condition of charge
+    # neutrality"; Neamen, Semiconductor Physics and Devices, 4th ed., eq. 4.60, number from
+    # memory), and with Boltzmann statistics
     # V_bi0 = kT ln(n_n0 p_p0 / n_i^2) (Sze & Ng, 3rd ed., eq. 2.8, from memory). The solver's
     # bulk neutrality must give that to its root tolerance (1e-9 V allowed: the closed form is
     # exact for Boltzmann statistics). The depletion engine, which counts majority carriers

@@ -11,6 +11,7 @@ from .. import REGIMES
 from .._model import INTERVAL_TIE_V, SurrogateModel
 
 from ._solver import SOLVER_VERSION, solve
+from ._spec import Variable
 
 TIE_V = INTERVAL_TIE_V  #: a solver answer this close to an interval end counts as inside [V]
 BOUNDARY_BAND_LN = (float(np.log(0.5)), float(np.log(1.5)))  #: "near": max majority in [N/4, 3N/4]
@@ -22,15 +23,11 @@ def fresh_designs(model: SurrogateModel, n: int, seed: int) -> dict:
     columns held, from a generator of its own ``seed``."""
     rng = np.random.default_rng(seed)
     cols = {"material": model.material, "core_type": model.core_type}
+    offsets = model.meta.get("offsets", {})
     for col, (lo, hi) in model.domain.items():
-        u = rng.random(n)
-        tr = model.meta["transforms"].get(col)
-        if tr in ("log", "shifted-log"):  # uniform in log10(x + offset), as the spec sampled
-            s = float(model.meta.get("offsets", {}).get(col, 0.0)) if tr == "shifted-log" else 0.0
-            a, b = np.log10(lo + s), np.log10(hi + s)
-            cols[col] = np.where(u <= 0.0, lo, np.clip(10 ** (a + u * (b - a)) - s, lo, hi))
-        else:
-            cols[col] = lo + u * (hi - lo)
+        tr = model.meta["transforms"].get(col, "linear")
+        var = Variable(col, lo, hi, tr, float(offsets.get(col, 0.0)) if tr == "shifted-log" else 0.0)
+        cols[col] = var.from_unit(rng.random(n))  # the spec's own map from the unit interval
     for col, v in model.fixed.items():
         cols[col] = np.full(n, float(v))
     return cols
