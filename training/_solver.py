@@ -304,7 +304,7 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     4.1); the column ``ionisation`` says which model each row used.
     ``tridiagonal``: the linear solver of each Newton step, ``"cyclic-reduction"`` (default) or
     ``"thomas"`` (the method of solver 1.1, kept for comparison); both give the same answers to
-    rounding (Newton stops on a 1e-9 V update either way).
+    rounding (Newton stops on the same rule either way, ``_poisson.Y_TOL``).
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)
