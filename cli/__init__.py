@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import os
+import re
 import sys
 
 from . import _errors
@@ -25,8 +26,18 @@ COMMANDS = {"ask": "_commands", "batch": "_commands", "materials": "_commands", 
             "validate": "_models_cmd", "train": "_models_cmd", "dataset": "_dataset_cmd", "demo": "_demo"}
 
 
+_NEGATIVE_VALUE = re.compile(r"^-\.?\d")
+
+
 class _Parser(argparse.ArgumentParser):
-    """argparse with one-line errors (no usage dump) that name the command's --help."""
+    """argparse with one-line errors (no usage dump) that name the command's --help. A word
+    that starts with a minus and a digit (``-5nm``, ``-0.2eV``, ``-1e3``) is a value, never an
+    option (no option of ours starts with a digit), so the validation layer, not argparse, says
+    what range a negative value breaks."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self._negative_number_matcher = _NEGATIVE_VALUE  # argparse's own hook for this (private)
 
     def error(self, message):
         raise _errors.UsageError(f"{message} (see `{self.prog} --help`)")

@@ -32,6 +32,21 @@ def is_parquet(path) -> bool:
     return str(path).lower().endswith((".parquet", ".pq"))
 
 
+#: output suffixes `batch` writes: CSV (also for no suffix and .txt) or Parquet; any other
+#: suffix (.json, .xlsx, ...) promises a format it would not get, so it is refused up front
+CSV_SUFFIXES = ("", ".csv", ".txt")
+
+
+def check_output(path) -> None:
+    """A one-line ``UsageError`` if ``-o path`` names a format `batch` does not write."""
+    if path in (None, "-") or is_parquet(path):
+        return
+    suffix = os.path.splitext(str(path))[1].lower()
+    if suffix not in CSV_SUFFIXES:
+        raise _errors.UsageError(f"-o {path}: batch writes CSV (.csv, .txt or no suffix) or Parquet (.parquet, .pq), "
+                                 f"not {suffix!r}")
+
+
 def column_text(values) -> list:
     """A result column as CSV text, formatted column-wise: floats in their shortest round-trip
     form (repr, the same text numpy's str gives), NaN as empty, booleans as true/false."""
@@ -122,6 +137,7 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
     chunk_rows = getattr(args, "chunk_rows", None) or CHUNK_ROWS
     if chunk_rows < 1:
         raise _errors.UsageError(f"--chunk-rows: a number of rows >= 1 (got {chunk_rows})")
+    check_output(args.output)
     if is_parquet(args.input):
         from ._parquetio import open_parquet
 

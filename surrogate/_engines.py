@@ -130,6 +130,11 @@ def answer(designs, engine: str = DEFAULT_ENGINE, statistics: str = "fermi-dirac
     table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
 
     def run(part):
+        res = _run(part)
+        res["engine"][part.status != "ok"] = ""  # no engine saw a row whose input failed validation
+        return res
+
+    def _run(part):
         if engine == "auto":
             return _auto(part, statistics, second_opinion, confirm, n_jobs, ionisation, models)
         if engine == "surrogate":

@@ -42,6 +42,10 @@ def test_ask_json_matches_library():
     (("--core-radius", "0nm"), "--core-radius (core_radius_nm: allowed range [1, 100000] (got 0))"),
     (("--dit", "lots"), "--dit (dit_cm2eV: expected a number"),
     (("--material", "Kryptonite"), "--material (material: unknown material 'Kryptonite'"),
+    # a negative value with a unit, written with a space, reaches the validation layer (argparse
+    # alone took "-5nm" for an option and said "expected one argument")
+    (("--core-radius", "-5nm"), "--core-radius (core_radius_nm: allowed range [1, 100000] (got -5))"),
+    (("--shell-doping", "-1e18"), "--shell-doping (shell_doping_cm3: allowed range"),
 ])
 def test_ask_bad_input_one_line_exit_2(swap, fragment):
     argv = list(ASK)
@@ -86,9 +90,21 @@ def test_batch_keeps_rows_order_and_input_columns(tmp_path):
         assert all(g[k] == v for k, v in r.items())  # input columns unchanged, as text
     assert got[0]["status"] == "ok" and float(got[0]["vbi_V"]) > 1.3
     assert got[1]["status"].startswith("core_radius_nm: allowed range") and got[1]["vbi_V"] == ""
-    assert got[2]["status"].startswith("surface accumulates")
+    assert got[1]["engine"] == ""  # no engine saw a row whose input failed validation
+    assert got[2]["status"].startswith("surface accumulates") and got[2]["engine"] == "depletion"
     assert got[3]["status"] == "ok" and got[3]["regime"] in radialpn.REGIMES
     assert "4 rows" in text
+
+
+@pytest.mark.parametrize("name", ["out.json", "out.xlsx"])
+def test_batch_refuses_an_output_suffix_it_would_not_honour(tmp_path, name):
+    # CSV written into a .json or .xlsx file would be a silent default; refused before any work
+    src = tmp_path / "in.csv"
+    src.write_text("material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"
+                   "GaAs,p,60,40,1e18,1e18,1e12\n")
+    code, text, _ = run(["batch", str(src), "-o", str(tmp_path / name)])
+    assert code == 2 and text.count("\n") == 1 and "batch writes CSV" in text and "Parquet" in text
+    assert not (tmp_path / name).exists()
 
 
 def test_batch_missing_file_one_line(tmp_path):
