@@ -7,7 +7,8 @@ On random designs spanning the solver's whole domain (every material of the tabl
 types, core 5-500 nm, shell 1-500 nm, dopings 1e15-1e20 cm^-3, D_it 0-1e15 cm^-2 eV^-1, neutral
 level anywhere in the gap, 77-500 K) it prints, in one run:
   - the convergence rate and Newton iteration counts (and with full and with incomplete ionisation),
-  - solver throughput with 1 and with --jobs workers, next to the same solver with the Thomas
+  - solver throughput with 1 and with --jobs workers (forked processes, and threads for the
+    ratio), next to the same solver with the Thomas
     tridiagonal solve at 256 designs per batch (the 1.1 release's linear algebra, for the
     ratio) and the depletion engine on the same designs, and the largest difference between
     the two linear solvers' answers,
@@ -76,8 +77,9 @@ def main() -> None:
     n = min(a.time_designs, a.designs)
     dt = {k: (v[:n] if np.ndim(v) else v) for k, v in d.items()}
     solve({k: (v[:600] if np.ndim(v) else v) for k, v in d.items()}, n_jobs=a.jobs)  # start the workers
-    runs = {"new 1": dict(), f"new {a.jobs}": dict(n_jobs=a.jobs), "old 1": dict(tridiagonal="thomas", batch=256),
-            f"old {a.jobs}": dict(tridiagonal="thomas", batch=256, n_jobs=a.jobs)}
+    runs = {"new 1": dict(), f"new {a.jobs}": dict(n_jobs=a.jobs, parallel="processes"),
+            "threads": dict(n_jobs=a.jobs, parallel="threads"), "old 1": dict(tridiagonal="thomas", batch=256),
+            f"old {a.jobs}": dict(tridiagonal="thomas", batch=256, n_jobs=a.jobs, parallel="threads")}
     times = {k: [] for k in runs}
     for _ in range(a.rounds):  # interleaved, so a change of machine load hits both paths alike
         for k, kw in runs.items():
@@ -90,9 +92,13 @@ def main() -> None:
     new, old = solve(d), solve(d, tridiagonal="thomas", batch=256)
     both = (new["status"] == "ok") & (old["status"] == "ok")
     dv = np.max(np.abs(new["vbi_V"][both] - old["vbi_V"][both]))
+    tt = np.median(times["threads"])
+    rp = np.median(np.array(times["threads"]) / np.array(times[f"new {a.jobs}"]))
     print(f"  throughput (fermi-dirac, {n:,} designs, median of {a.rounds} interleaved rounds): solver 1 worker "
-          f"{n / t1:,.0f} designs/s, {a.jobs} workers {n / tj:,.0f} designs/s (x{t1 / tj:.2f})")
-    print(f"    Thomas solve, 256 per batch: 1 worker {n / to:,.0f} designs/s, {a.jobs} workers {n / toj:,.0f} "
+          f"{n / t1:,.0f} designs/s, {a.jobs} forked worker processes {n / tj:,.0f} designs/s (x{t1 / tj:.2f}; "
+          f"goal 6,000/s), {a.jobs} threads {n / tt:,.0f} designs/s (processes x{rp:.2f} threads, median of pairs)")
+    print(f"    Thomas solve, 256 per batch (1.1's linear algebra, on threads): 1 worker {n / to:,.0f} designs/s, "
+          f"{a.jobs} workers {n / toj:,.0f} "
           f"designs/s; speed-up x{r1:.2f} (1 worker), x{rj:.2f} ({a.jobs} workers), median of pairs; on all "
           f"{a.designs:,}: same status {np.mean(new['status'] == old['status']):.2%}, max |dV_bi| {dv:.1e} V")
     print(f"    depletion engine {n / td:,.0f} designs/s (x{tj / td:,.0f} the {a.jobs}-worker solver)")

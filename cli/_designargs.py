@@ -91,7 +91,9 @@ def target_from_args(args) -> dict:
 def progress_bar(console, label: str):
     """A (context manager, callback) pair: a transient rich progress bar driven by the design
     API's ``progress(done, total)`` calls. Nothing is drawn (not even a blank line) unless the
-    API reports progress, which it does only on runs expected to take over a second."""
+    API reports progress, which it does only on runs expected to take over a second. The bar
+    redraws on each report, not from a thread of its own, so the solver may still fork its
+    workers (``radialpn.training.fork_safe``)."""
     import contextlib
     import time
 
@@ -103,11 +105,11 @@ def progress_bar(console, label: str):
         if "bar" not in state:
             state["bar"] = Progress(TextColumn("[#5b8def]{task.description}"), BarColumn(), MofNCompleteColumn(),
                                     TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), console=console,
-                                    transient=True)
+                                    transient=True, auto_refresh=False)  # no refresh thread: the solver may fork
             state["bar"].start()
             state["task"], state["t0"] = state["bar"].add_task(label, total=total, rate=""), time.perf_counter()
         rate = done / max(time.perf_counter() - state["t0"], 1e-9)
-        state["bar"].update(state["task"], completed=done, total=total, rate=f"{rate:,.0f}/s")
+        state["bar"].update(state["task"], completed=done, total=total, rate=f"{rate:,.0f}/s", refresh=True)
 
     @contextlib.contextmanager
     def shown():

@@ -158,6 +158,10 @@ def cmd_validate(args, console, out) -> int:
         (f"{v['interval_level']:.0%} interval coverage", f"{v['interval_coverage']:.4f}"),
         ("GP V_bi mean error / coverage", f"{v['gp_vbi_mean_mV']:.2f} mV / {v['gp_interval_coverage']:.4f}"),
         ("flagged for the solver", f"{v['flagged_rate']:.2%}"),
+        *((("with --confirm: re-answered", f"{v['confirm_rate']:.2%}"),
+           ("with --confirm: regime, V_bi mean/p99", f"{v['confirm_regime_accuracy']:.4f}, {v['confirm_vbi_mean_mV']:.2f}/"
+                                                      f"{v['confirm_vbi_p99_mV']:.2f} mV"))
+          if "confirm_rate" in v else ()),
     ):
         t.add_row(label, value)
     console.print(t)

@@ -49,7 +49,7 @@ def test_console_full_design_assumes_nothing():
 
 
 def test_console_verify_clears_the_flag():
-    # a wire on the edge of the shell's depletion (regime probability 0.86 < 0.9, a flag that does
+    # a wire on the edge of the shell's depletion (regime probability 0.86 < 0.99, a flag that does
     # not hang on the GP's calibration): flagged until the solver has checked this very design,
     # then shown as verified
     argv = ["console", "--material", "GaAs", "--core-type", "p", "--core-radius", "80nm", "--shell-thickness",
@@ -94,7 +94,9 @@ def test_jsonl_protocol_strict_all_or_nothing():
 def test_completion_of_commands_names_and_values():
     assert completions("", "ve") == ["verify"]
     assert completions("set sh", "sh") == ["shell", "shell-doping", "shell-thickness"]
-    assert set(completions("set material G", "G")) == {"GaAs", "GaN", "Ge"}
+    # the material table's names (another test module may have registered a user material)
+    got = set(completions("set material G", "G"))
+    assert {"GaAs", "GaN", "Ge"} <= got and got == {m for m in radialpn.material_names() if m.startswith("G")}
     assert set(completions("engine ", "")) == set(radialpn.ENGINES)
     assert completions("set core-type ", "") == ["p", "n"]
 

@@ -74,6 +74,7 @@ def test_auto_answers_every_valid_row_and_says_which_engine():
     assert (out["engine_note"][:5] == "").all() and "no surrogate bundle for GaAs-nobundle-eng" in out["engine_note"][5]
     assert "shell_thickness_nm 500 not in" in out["engine_note"][6] and "interlayer_nm must be 0" in out["engine_note"][7]
     assert out["status"][8].startswith("core_radius_nm: allowed range")  # invalid rows stay refused
+    assert out["engine"][8] == ""  # ... and no engine claims them
     # the solver rows are the solver's own answers (same inputs, same code): exact
     ref = radialpn.solve(rows[5:8])
     np.testing.assert_array_equal(out["vbi_V"][5:8], ref["vbi_V"])
@@ -93,13 +94,15 @@ def test_confirm_reanswers_flagged_rows_with_the_solver():
 
 
 def test_confirm_without_the_gp_uses_the_interval_and_the_regime_probability():
-    # No second opinion: a row is uncertain where its regime probability is below 0.9 or its
+    # No second opinion: a row is uncertain where its regime probability is below CONFIRM_PROB or its
     # 95 % interval is wider than +-20 mV (docs/design-table.md); --confirm re-solves exactly those.
     d = _uniform_in_domain(400, 6, "n", "InP")  # InP n-core: the widest intervals of the shipped bundles
     plain = radialpn.predict(d)
     ok = plain["status"] == "ok"
     wide = ok & ((plain["vbi_high_V"] - plain["vbi_low_V"]) / 2 > 0.020)
-    unsure = ok & (plain["regime_prob"] < 0.9)
+    from radialpn._model import CONFIRM_PROB
+    unsure = ok & (plain["regime_prob"] < CONFIRM_PROB)
+    assert unsure.any()
     assert wide.any()  # about 6 % of uniform InP n-core designs have an interval that wide
     assert plain["confirm_with_solver"][wide | unsure].all()
     conf = radialpn.predict(d, confirm=True)

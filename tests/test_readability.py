@@ -132,7 +132,7 @@ def test_ask_verify_says_when_the_solver_answered_already():
 
 
 def test_ask_drops_the_flag_once_verified():
-    # a wire on the edge of the shell's depletion (regime probability 0.86 < 0.9): flagged
+    # a wire on the edge of the shell's depletion (regime probability 0.86 < 0.99): flagged
     # without --verify, settled with it
     argv = ["ask", "--material", "GaAs", "--core-type", "p", "--core-radius", "80nm", "--shell-thickness", "36.6nm",
             "--core-doping", "1e18", "--shell-doping", "2e18", "--dit", "5e12"]

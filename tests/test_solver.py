@@ -203,6 +203,59 @@ def test_parallel_equals_serial():
     np.testing.assert_array_equal(a["vbi_V"], b["vbi_V"])
 
 
+def test_forked_workers_equal_serial():
+    # Forked workers run the same batches through the same numpy code as the serial loop, so
+    # their answers must be bit-identical, a user-registered material included (the workers
+    # inherit the material table with the fork). Run in a fresh interpreter: forking needs this
+    # process's only thread, and other test modules may leave threads behind.
+    import subprocess
+    import sys
+    import textwrap
+    code = textwrap.dedent("""
+        import numpy as np, radialpn
+        from radialpn.training import fork_safe, solve
+        g = radialpn.get_material("GaAs")
+        radialpn.register_material(radialpn.Material("GaAs-forked", g.band_gap_300_eV + 0.05, g.varshni_alpha_eV_K,
+                                                     g.varshni_beta_K, g.permittivity_rel, g.nc_300_cm3,
+                                                     g.nv_300_cm3, g.cnl_eV))
+        rng = np.random.default_rng(5)
+        n = 1200
+        d = dict(material=np.where(rng.random(n) < 0.5, "GaAs-forked", "Si"), core_type=np.where(rng.random(n) < 0.5, "p", "n"),
+                 core_radius_nm=10 ** rng.uniform(1, 2.5, n), shell_thickness_nm=10 ** rng.uniform(0.5, 2.5, n),
+                 core_doping_cm3=10 ** rng.uniform(16, 19, n), shell_doping_cm3=10 ** rng.uniform(16, 19, n),
+                 dit_cm2eV=10 ** rng.uniform(10, 13.5, n), temperature_K=rng.uniform(77, 450, n))
+        assert fork_safe()
+        a, b = solve(d), solve(d, n_jobs=2, parallel="processes")
+        assert list(a["status"]) == list(b["status"]) and (a["status"] == "ok").sum() > 1000
+        for k in ("vbi_V", "surface_bending_V", "core_neutral_radius_nm", "shell_neutral_nm", "vbi0_V"):
+            assert np.array_equal(a[k], b[k], equal_nan=True), k
+        print("identical")
+    """)
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300)
+    assert run.returncode == 0 and run.stdout.strip() == "identical", run.stderr[-2000:]
+
+
+def test_processes_refused_where_forking_is_unsafe():
+    # a second thread is running here, so forking could copy a held lock: refused with the reason
+    import threading
+    d = _random_designs(300, 3)
+    box = {}
+    t = threading.Thread(target=lambda: box.update(err=_catch(lambda: solve(d, n_jobs=2, parallel="processes"))))
+    t.start()
+    t.join()
+    assert str(box["err"]).startswith("parallel: 'processes' on Linux, outside a daemonic worker, from a single-threaded")
+    with pytest.raises(radialpn.DesignError, match="parallel: one of auto, processes, threads"):
+        solve(d, parallel="fork")
+
+
+def _catch(fn):
+    try:
+        fn()
+    except radialpn.DesignError as exc:
+        return exc
+    return None
+
+
 def test_cyclic_reduction_equals_thomas():
     # Both tridiagonal methods solve the same diagonally dominant Newton systems exactly up to
     # rounding (Golub & Van Loan, Matrix Computations, 4th ed., sec. 4.3.6 and 4.5.4), so the

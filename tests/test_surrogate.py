@@ -198,16 +198,21 @@ def test_recalibration_rebuilds_the_shipped_quantiles_from_the_spec_alone(shippe
     got = recalibrate_bundle(d, ROOT / "models" / "specs" / "gaas-pcore.toml", n_jobs=1, log=lambda m: None)
     want = json.loads((shipped["gaas-pcore"] / "bundle.json").read_text())["conformal"]
     # The GP's quantiles come from BLAS kernel sums whose blocking (so rounding) depends on the
-    # row count and thread count: 3e-12 relative measured, 1e-9 allowed; everything else exact.
-    def gp_free(block):
-        out = {k: v for k, v in block.items() if k not in ("q_gp", "groups")}
-        out["groups"] = {g: {k: v for k, v in d.items() if k != "q_gp"} for g, d in block["groups"].items()}
+    # row count and thread count: 3e-12 relative measured, 1e-9 allowed. The trees' quantiles are
+    # ratios of solver errors (~mV) to interval scales; the shipped ones were computed before the
+    # Newton stop rule moved solver answers by up to 4e-11 V (tests/test_solver.py), which moves
+    # them by ~2e-9 relative: 1e-7 allowed. Row counts, groups and pooling are exact.
+    def scalars(block):
+        out = {k: v for k, v in block.items() if k not in ("q_gp", "q_gbm", "groups")}
+        out["groups"] = {g: {k: v for k, v in d.items() if k not in ("q_gp", "q_gbm")} for g, d in block["groups"].items()}
         return out
 
-    assert gp_free(got) == gp_free(want) and set(want["groups"]) == set(radialpn.REGIMES)
+    assert scalars(got) == scalars(want) and set(want["groups"]) == set(radialpn.REGIMES)
     assert got["q_gp"] == pytest.approx(want["q_gp"], rel=1e-9)
+    assert got["q_gbm"] == pytest.approx(want["q_gbm"], rel=1e-7)
     for g in want["groups"]:
         assert got["groups"][g]["q_gp"] == pytest.approx(want["groups"][g]["q_gp"], rel=1e-9), g
+        assert got["groups"][g]["q_gbm"] == pytest.approx(want["groups"][g]["q_gbm"], rel=1e-7), g
     meta, _ = read_bundle(d)
     assert "validation" not in meta and load_bundle(d).name == "gaas-pcore"
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import datetime
 
 from .._ionisation import AUTO_BELOW_K, DEEP_EV
+from .._model import CONFIRM_HALF_WIDTH_V, CONFIRM_PROB
 
 TARGETS = {  # issue 5's targets, measured on fresh solver runs
     "regime_accuracy": (">=", 0.995), "vbi_mean_mV": ("<=", 3.0), "vbi_p99_mV": ("<=", 20.0),
@@ -85,8 +86,9 @@ def render_card(meta: dict) -> str:
             f"| mean interval width | {v['interval_mean_width_mV']:.2f} mV | — |",
             f"| GP V_bi mean / p99 error | {v['gp_vbi_mean_mV']:.2f} / {v['gp_vbi_p99_mV']:.2f} mV | — |",
             f"| GP interval coverage | {v['gp_interval_coverage']:.4f} | — |",
-            f"| flagged for the solver (regime probability < 0.9, interval wider than +-20 mV or GP disagreement) | "
-            f"{v['flagged_rate']:.2%} | — |",
+            f"| flagged for the solver (regime probability < {CONFIRM_PROB:g}, interval wider than "
+            f"+-{CONFIRM_HALF_WIDTH_V * 1e3:.0f} mV or GP disagreement) | {v['flagged_rate']:.2%} | — |",
+            *_confirm_rows(v),
             "",
             "Confusion matrix (rows: solver, columns: surrogate):",
             "",
@@ -189,3 +191,12 @@ def _smoothing_text(conf: dict) -> str:
         return ""
     return (f", averaged over {k} designs within +-{conf['smooth_dex']:g} decades of radius, shell, dopings and "
             "D_it (smooths the trees' steps)")
+
+
+def _confirm_rows(v: dict) -> list:
+    """Card rows for the answers under ``--confirm`` (reports written before 0.3.1 lack them)."""
+    if "confirm_rate" not in v:
+        return []
+    return [f"| with `--confirm`: designs re-answered by the solver | {v['confirm_rate']:.2%} | — |",
+            f"| with `--confirm`: regime accuracy / V_bi mean / p99 error | {v['confirm_regime_accuracy']:.4f} / "
+            f"{v['confirm_vbi_mean_mV']:.2f} / {v['confirm_vbi_p99_mV']:.2f} mV | — |"]

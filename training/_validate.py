@@ -75,6 +75,9 @@ def score(model: SurrogateModel, d: dict, truth: dict, seed, t_solver: float) ->
     t = time.perf_counter()
     pred = model.predict(d, second_opinion=True)
     t_sur = time.perf_counter() - t
+    # what `--confirm` re-answers: the flag of a prediction without the second opinion (the
+    # default); the solver's answer to those rows is the reference itself
+    confirm = model.predict(d)["confirm_with_solver"]
     ok = (truth["status"] == "ok") & (pred["status"] == "ok")
     y, p = truth["regime"][ok], pred["regime"][ok]
     lo, hi = BOUNDARY_BAND_LN
@@ -117,6 +120,10 @@ def score(model: SurrogateModel, d: dict, truth: dict, seed, t_solver: float) ->
         "unflagged_gbm_mean_mV": float(1e3 * err[~flag].mean()) if (~flag).any() else None,
         "flagged_regime_accuracy": float((y[flag] == p[flag]).mean()) if flag.any() else None,
         "unflagged_regime_accuracy": float((y[~flag] == p[~flag]).mean()) if (~flag).any() else None,
+        "confirm_rate": float(confirm[ok].mean()),
+        "confirm_regime_accuracy": float(((y == p) | confirm[ok]).mean()),
+        "confirm_vbi_mean_mV": float(1e3 * np.where(confirm[ok], 0.0, err).mean()),
+        "confirm_vbi_p99_mV": float(1e3 * np.percentile(np.where(confirm[ok], 0.0, err), 99)),
         "solver_rows_per_s": float(n / t_solver), "surrogate_rows_per_s_with_gp": float(n / t_sur),
     }
 
