@@ -53,7 +53,7 @@ HMAX_FRACTION = 0.08  #: largest spacing as a fraction of the outer radius
 IONISATION_STEP = 0.25
 IONISATION_MIN_STEP = 1.0 / 64
 #: how ``solve(n_jobs > 1)`` spreads its batches: "processes" (forked workers, each with its own
-#: interpreter: ~1.5x the throughput of threads on 2 cores, where the threads' interpreter lock
+#: interpreter: ~1.7x the throughput of threads on 2 cores, where the threads' interpreter lock
 #: and small-array calls serialise part of the work), "threads", or "auto" (default): processes
 #: where forking is safe (``fork_safe``), else threads. Answers are bit-identical either way
 #: (the same batches through the same code)
