@@ -197,3 +197,46 @@ def test_peak_field_and_tunnelling_estimate():
     hot = solve(dict(material="GaAs", core_type="p", core_radius_nm=500, shell_thickness_nm=500, core_doping_cm3=1e19,
                      shell_doping_cm3=1e19, dit_cm2eV=0.0))
     assert hot["tunnel_log10"][0] > -10 > out["tunnel_log10"][0]
+
+
+def test_intrinsic_level_balances_electrons_and_holes():
+    # where n = p (the level at which an undoped region's space charge changes sign): against
+    # F_1/2 from scipy quadrature of its defining integral (reference_bvp.fermi_half; Blakemore
+    # 1982, eq. 1), and against the non-degenerate E_g/2 + (kT/2) ln(N_v/N_c) (Sze & Ng, 3rd ed.,
+    # sec. 1.4.1, from memory) for a wide gap, where F_1/2 is the exponential to ~e^-50.
+    from radialpn.training._solver import intrinsic_level
+
+    kt = 8.617333262e-5 * np.array([500.0, 300.0, 77.0])
+    Eg, Nv, Nc = np.array([0.30, 1.42, 3.39]), np.array([6e24, 9e24, 2.5e25]), np.array([8.7e22, 4.4e23, 2.2e24])
+    y = intrinsic_level(Eg, Nv, Nc, kt, "fermi-dirac")
+    p = Nv * reference_bvp.fermi_half(-y / kt)
+    n = Nc * reference_bvp.fermi_half((y - Eg) / kt)
+    # 1e-9: the reference's spline of ln F_1/2 on a 0.05 grid is good to ~1e-10 relative
+    assert n / p == pytest.approx(np.ones(3), rel=1e-9)
+    wide = 0.5 * Eg[2] + 0.5 * kt[2] * np.log(Nv[2] / Nc[2])
+    assert y[2] == pytest.approx(wide, abs=1e-12)  # e^-(E_g/2kT) ~ 1e-110 below rounding
+    # narrow gap, light electrons: the level sits near E_c, where F_1/2 < e^eta lowers n; the
+    # level rises to make it up
+    assert y[0] > 0.5 * Eg[0] + 0.5 * kt[0] * np.log(Nv[0] / Nc[0])
+
+
+@pytest.mark.parametrize("design", [
+    # GaN, 4 nm shell at 1.1e15 cm^-3 on an accumulating surface (D_it 5.9e14): solver 1.2 put
+    # 37 mV of grid error into V_bi here by interpolating y across the layer's edge
+    dict(material="GaN", core_type="p", core_radius_nm=46.8, shell_thickness_nm=4.008, core_doping_cm3=9.12e19,
+         shell_doping_cm3=1.129e15, dit_cm2eV=5.897e14, cnl_eV=3.3814, temperature_K=189.1),
+    # InP n-core, 3.5 nm shell, D_it 7.7e14: 7.6 mV in solver 1.2
+    dict(material="InP", core_type="n", core_radius_nm=365.4, shell_thickness_nm=3.51, core_doping_cm3=1.879e19,
+         shell_doping_cm3=3.564e15, dit_cm2eV=7.682e14, cnl_eV=0.04676, temperature_K=211.3),
+    # Si n-core, 1.7 nm shell whose y dips below its neutral level only at the interface, the
+    # layer running on into an inverted core: solver 1.2 gave 0.497 V up to 600 nodes, 0.759 V
+    # from 800 (262 mV apart)
+    dict(material="Si", core_type="n", core_radius_nm=98.914, shell_thickness_nm=1.6645, core_doping_cm3=9.884e18,
+         shell_doping_cm3=1.279e16, dit_cm2eV=6.636e14, cnl_eV=0.04328, temperature_K=404.83),
+])
+def test_accumulation_edge_vbi_converges_with_the_grid(design):
+    # property (convergence): the project's grid bound, V_bi within 0.1 mV of a 4x finer grid
+    # (docs/physics.md section 8.4); both designs are accumulating (bending < 0)
+    coarse, fine = solve(design, nodes=400), solve(design, nodes=1600)
+    assert coarse["status"][0] == "ok" and coarse["surface_bending_V"][0] < 0
+    assert abs(coarse["vbi_V"][0] - fine["vbi_V"][0]) < 1e-4

@@ -38,11 +38,14 @@ from ._poisson import MAX_ITER, carriers, control_volumes, ionised, newton, resi
 from ._tridiag import METHODS as TRIDIAGONAL_METHODS
 
 #: recorded in every training row; bump when results can change. 1.2: incomplete ionisation (default
-#: "auto": on below 200 K and for deep dopants); rows resolved to full ionisation answer as in 1.1
-SOLVER_VERSION = "1.2"
-#: earlier versions whose answers this one reproduces under full ionisation (what training sets use):
-#: a bundle fitted on them is recalibrated and validated as if fitted on this one
-SAME_FULL_IONISATION = ("1.1",)
+#: "auto": on below 200 K and for deep dopants); rows resolved to full ionisation answer as in 1.1.
+#: 1.3: a surface layer's edge at its region's zero-charge level instead of interpolated between
+#: nodes (``analyse``): changes 2.5 % of whole-domain designs, by at most their grid error
+SOLVER_VERSION = "1.3"
+#: earlier versions whose answers this one reproduces to within its grid error (1.1 under full
+#: ionisation, 1.2 but for the surface-layer edge): a bundle fitted on them is recalibrated and
+#: validated as if fitted on this one
+SAME_FULL_IONISATION = ("1.1", "1.2")
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
 BATCH = 128  #: designs per Newton batch: each working array (NODES x BATCH) stays in a core's L2 cache
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
@@ -77,8 +80,26 @@ def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
         da_out = outputs(sol, **prob)
     da_ok = (row_status(table, prob, sol, da_out, cnl) == "ok") & (il == 0)
     lv = exact_levels(table, prob, dop, statistics)  # exact neutrality, both carriers
+    y_int = intrinsic_level(prob["Eg"], lv["Nv"], lv["Nc"], lv["kT"], statistics)
     return dict(prob=prob, sol=sol, da_ok=da_ok, kT=lv["kT"], Nv=lv["Nv"], Nc=lv["Nc"], b=prob["a"] + il,
-                y_core=lv["y_core"], y_shell=lv["y_shell"], dopants=dop, table=table, incomplete=incomplete)
+                y_core=lv["y_core"], y_shell=lv["y_shell"], y_int=y_int, dopants=dop, table=table,
+                incomplete=incomplete)
+
+
+def intrinsic_level(Eg, Nv, Nc, kT, statistics: str, steps: int = 3) -> np.ndarray:
+    """y = E_F - E_v [eV] where n = p, for gap ``Eg`` [eV], band densities of states ``Nv``, ``Nc``
+    [m^-3] and ``kT`` [eV]: the level at which an undoped region's space charge changes sign.
+    Newton on ln n - ln p from the non-degenerate value E_g/2 + (kT/2) ln(N_v/N_c) (Sze & Ng,
+    Physics of Semiconductor Devices, 3rd ed., sec. 1.4.1, from memory); near mid-gap F_1/2 differs from the
+    exponential by ~e^eta/2^(3/2), so ``steps`` = 3 reaches rounding."""
+    with np.errstate(all="ignore"):
+        y = 0.5 * Eg + 0.5 * kT * np.log(Nv / Nc)
+        for _ in range(steps):
+            fp, dfp = occupancy(-y / kT, statistics)
+            fn, dfn = occupancy((y - Eg) / kT, statistics)
+            g = np.log(Nc * fn) - np.log(Nv * fp)
+            y = y - g / ((dfn / fn + dfp / fp) / kT)
+    return y
 
 
 def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, max_iter: int = MAX_ITER,
@@ -107,6 +128,7 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
     y0 = np.where(np.isfinite(y0), y0, step)
     p = dict(eps=eps, face=face, vol=vol, core=core, shell=shell, NA=pr["NA"], ND=pr["ND"], R=R, Dit=pr["Dit"],
              Ecnl=pr["Ecnl"], kT=kt, Eg=pr["Eg"], Nv=ph["Nv"][sel], Nc=ph["Nc"][sel])
+    levels = dict(core=yc, shell=ys, intrinsic=ph["y_int"][sel])  # where each region's space charge is zero
     if ph["dopants"] is not None and ph["incomplete"][sel].any():  # only then the charge model's extra work
         p.update({k: v[sel] for k, v in ph["dopants"].items()})
         # the regime criterion's reference: the majority density of the neutral bulk (N itself
@@ -118,7 +140,7 @@ def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, m
         y, iters, conv, last = newton(y0, p, statistics, max_iter=max_iter, tridiagonal=tridiagonal)
         if "core_s" in p and not conv.all():
             _continue_ionisation(y0, y, iters, conv, last, p, statistics, max_iter, tridiagonal)
-        out = analyse(y, r, p, a, b, statistics)
+        out = analyse(y, r, p, a, b, statistics, levels)
     out.update(iterations=iters, converged=conv, last_update_V=last, vbi0_V=ys - yc, y_core=yc, y_shell=ys,
                Eg=p["Eg"], tunnel_log10=tunnel_log10(out["peak_field_V_per_m"], p["Eg"], p["Nc"] / 1e6,
                                                     p["Nv"] / 1e6, kt / K_B_EV))
@@ -220,6 +242,12 @@ def _vertex(y, r, k, sign, mask):
     return sign * np.where(use, np.maximum(top, y1), y1)
 
 
+def _between(level, y0, y1):
+    """``level`` clipped to the interval spanned by y0 and y1 (all (B,) [eV]): rounding in the
+    zero-charge level never takes it outside the two nodes whose charges bracket it."""
+    return np.clip(level, np.minimum(y0, y1), np.maximum(y0, y1))
+
+
 def _masked_vertex(y, r, mask, sign):
     """Extreme (``sign`` +1: largest, -1: smallest) of y over ``mask`` (N, B), refined by the
     parabola through the extreme node and its neighbours inside the mask."""
@@ -227,7 +255,7 @@ def _masked_vertex(y, r, mask, sign):
     return _vertex(y, r, k, sign, mask), k
 
 
-def analyse(y, r, p, a, b, statistics):
+def analyse(y, r, p, a, b, statistics, levels):
     """Design-table outputs of solved profiles y (N, B) on grids r (N, B), in the mirrored
     p-core frame (docs/physics.md section 8.6).
 
@@ -246,6 +274,14 @@ def analyse(y, r, p, a, b, statistics):
     neutral level where the shell keeps one) to y(R); negative on accumulation, exactly zero
     where D_it = 0 (zero surface field: the surface is itself the extremum). The peak field is
     the largest |dy/dr| between the core's minimum and the shell's maximum (the junction).
+
+    Where a layer's space charge changes sign between two nodes, y there is the level at which
+    that region's space charge vanishes: the net charge is a monotone function of y alone within a
+    region (carriers and ionised dopants depend on the local y only), so the sign change lies
+    exactly at ``levels`` (B,) [eV]: ``"core"`` (neutral core, p - n = N_A-), ``"shell"`` (neutral
+    shell, n - p = N_D+) or ``"intrinsic"`` (interlayer, n = p). Interpolating y linearly
+    between the nodes instead would put an error of up to the step of y between them into V_bi,
+    tens of mV where a thin lightly doped shell meets an accumulating surface (solver 1.2).
     """
     hole, _, elec, _ = carriers(y, p, statistics)
     NA, ND = ionised(y, p)  # the dopants' space charge (p["NA"], p["ND"] under full ionisation)
@@ -272,7 +308,9 @@ def analyse(y, r, p, a, b, statistics):
     y_min_inner = np.where(inner.any(0), y_min_inner, y[0])
     kr = np.clip(k_run, 1, N - 1)
     q0, q1 = pos[kr - 1, cols], pos[kr, cols]  # sign change between kr-1 (not pos) and kr (pos)
-    y_cut = np.where(~q0 & q1, 0.5 * (y[kr - 1, cols] + y[kr, cols]), y[kr - 1, cols])
+    r_kr = r[kr, cols]
+    zero = np.where(r_kr > b, levels["shell"], np.where(r_kr > a, levels["intrinsic"], levels["core"]))
+    y_cut = np.where(~q0 & q1, _between(zero, y[kr - 1, cols], y[kr, cols]), y[kr - 1, cols])
     y_min_cut = np.minimum(y_min_inner, y_cut)
     core_share = np.where(into_core, np.maximum(y_min_cut - y_min_core, 0.0), 0.0)
     y_min_core = np.where(into_core, y_min_cut, y_min_core)
@@ -282,7 +320,10 @@ def analyse(y, r, p, a, b, statistics):
     accumulating = (p["Dit"] > 0) & (y[-1] < p["Ecnl"])
     # the layer: negative space charge in the shell (n - p > N_D), continued into the interlayer
     # and the core where these are inverted (n > p), as in a nearly intrinsic core
-    net = elec - hole - np.where(r > b, ND, 0.0)  # [m^-3]
+    # the node at b bounds the shell as well: judged by the shell's charge there, so that a shell
+    # whose y stays below its neutral level only at its inner edge ends the layer in the shell
+    # (as the continuum does) on every grid, rather than only where a node falls inside that strip
+    net = elec - hole - np.where(r >= b, ND, 0.0)  # [m^-3]
     negative = net > 0
     k_edge = np.where(~negative, idx, -1).max(0) + 1  # first node of the run ending at R (N: none)
     accumulating &= k_edge < N
@@ -290,6 +331,9 @@ def analyse(y, r, p, a, b, statistics):
     c0, c1 = net[ke - 1, cols], net[ke, cols]
     t = np.clip(np.where(c1 > c0, -c0 / (c1 - c0), 1.0), 0.0, 1.0)  # where the space charge changes sign
     y_edge = y[ke - 1, cols] + t * (y[ke, cols] - y[ke - 1, cols])
+    flips = (c0 <= 0) & (c1 > 0)  # a true sign change: there y is the region's zero-charge level
+    zero = np.where(r[ke, cols] > b, levels["shell"], levels["intrinsic"])
+    y_edge = np.where(flips, _between(zero, y[ke - 1, cols], y[ke, cols]), y_edge)
     layer = idx >= k_edge
     outside = shell_side & (idx < k_edge)
     y_max_junction, k_hi_acc = _masked_vertex(y, r, outside, 1.0)
