@@ -30,7 +30,10 @@ def register(sub) -> None:
     val = sub.add_parser("validate", help="check a surrogate bundle against fresh reference-solver runs")
     val.add_argument("bundle", metavar="BUNDLE", help="bundle directory or name (see `radialpn models`)")
     val.add_argument("--rows", type=int, default=6000, help="fresh solver runs (default 6000; >= 5000 advised)")
-    val.add_argument("--seed", type=int, default=777, help="seed of the fresh designs")
+    val.add_argument("--seed", type=int, default=None,
+                     help="seed of the fresh designs (default: the seed of the bundle's own validation, so that "
+                          "--rows as on its card reproduces the card's figures; any other seed draws an "
+                          "independent set)")
     val.add_argument("-o", "--report", metavar="FILE.json",
                      help="also write the report as JSON (the shipped bundle and its card are never changed; "
                           "re-fit with `radialpn train`)")

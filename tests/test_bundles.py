@@ -1,6 +1,7 @@
 """Bundles are checked as data: damaged values with re-computed checksums, oversized or
 decompression-bomb files and special files are refused with a BundleError before anything
-answers (the checksums guard against accidents; these checks against values that make no sense)."""
+answers (the checksums guard against accidents; these checks against values that make no sense);
+and a shipped card's figures are reproduced by `validate`'s defaults."""
 
 import json
 import os
@@ -137,3 +138,18 @@ def test_bundle_without_per_regime_quantiles_loads_with_the_pooled_one(source, t
     assert a["vbi_V"][0] == b["vbi_V"][0]
     assert half_old[0] * q["groups"][b["regime"][0]]["q_gbm"] == pytest.approx(half_new[0] * q["q_gbm"], abs=1e-12)
     assert q["groups"][list(radialpn.REGIMES)[code]]["q_gbm"] != q["q_gbm"]  # so the check above can fail
+
+
+def test_validate_by_default_reproduces_the_shipped_card():
+    # `validate` with the card's row count and no seed draws the card's own fresh designs (the
+    # seed recorded in its report), so a user can reproduce the shipped figures. gaas-pcore's
+    # designs answer identically under solvers 1.2 and 1.3 (3,000 fresh designs compared), so the
+    # figures agree to rounding: 1e-9 on ratios and mV means.
+    from radialpn.training import validate_bundle
+
+    path = {name: p for name, _, _, p in radialpn.available()}["gaas-pcore"]
+    card = json.loads((path / "bundle.json").read_text())["validation"]
+    got = validate_bundle(path, rows=card["rows"], n_jobs=2)
+    assert got["seed"] == card["seed"]
+    for key in ("regime_accuracy", "interval_coverage", "vbi_mean_mV", "vbi_p99_mV", "flagged_rate"):
+        assert got[key] == pytest.approx(card[key], rel=1e-9, abs=1e-9), key

@@ -15,10 +15,7 @@ from ._fit import fit_bundle
 from ._recalibrate import recalibrate_bundle
 from ._solver import SOLVER_VERSION, solve
 from ._spec import load_spec
-from ._validate import TARGET_MIN_ROWS, score_targeted, targeted_designs, validate
-
-
-VALIDATE_SEED = 20261202  #: fresh designs of the shipped bundles' validation (not the calibration or test seeds)
+from ._validate import TARGET_MIN_ROWS, VALIDATE_SEED, score_targeted, targeted_designs, validate
 
 
 def library_versions() -> dict:
@@ -60,13 +57,18 @@ def train_bundle(spec_path, data_dir, out_dir, n_jobs=-1, validate_rows=6000, va
     return report
 
 
-def validate_bundle(path, rows=6000, seed=777, n_jobs=-1, write=False, targeted=False) -> dict:
-    """Validate an existing bundle on fresh solver runs. ``write=True`` stores the report in the
+def validate_bundle(path, rows=6000, seed=None, n_jobs=-1, write=False, targeted=False) -> dict:
+    """Validate an existing bundle on fresh solver runs. ``seed``: of the fresh designs; None
+    (default) takes the seed of the bundle's recorded validation, else ``VALIDATE_SEED``, so that
+    the same ``rows`` reproduce the card's figures. ``write=True`` stores the report in the
     bundle (only for a bundle you are building; the front end never does). ``targeted``: regimes
     the uniform sample predicts in fewer than ``TARGET_MIN_ROWS`` rows get a targeted check
     (``targeted_designs``, seed ``seed + 1``) under ``report["targeted"]``."""
     meta, arrays = read_bundle(path)
     model = SurrogateModel(meta, arrays, path)
+    if seed is None:
+        recorded = meta.get("validation", {}).get("seed") if isinstance(meta.get("validation"), dict) else None
+        seed = recorded if isinstance(recorded, int) and not isinstance(recorded, bool) else VALIDATE_SEED
     report = validate(model, rows, seed, n_jobs=n_jobs)
     if targeted:
         rare = rare_regimes(report)

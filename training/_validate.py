@@ -17,6 +17,9 @@ TIE_V = INTERVAL_TIE_V  #: a solver answer this close to an interval end counts 
 BOUNDARY_BAND_LN = (float(np.log(0.5)), float(np.log(1.5)))  #: "near": max majority in [N/4, 3N/4]
 
 
+VALIDATE_SEED = 20261202  #: fresh designs of the shipped bundles' validation (not the calibration or test seeds)
+
+
 def fresh_designs(model: SurrogateModel, n: int, seed: int) -> dict:
     """``n`` designs drawn uniformly over a bundle's domain as its spec sampled it (log10(x),
     log10(x + offset) or x uniform for "log", "shifted-log" and "linear" columns), its fixed
@@ -60,7 +63,7 @@ def coverage_table(truth_vbi, low, high, gp_low, gp_high, labels, names) -> dict
     return out
 
 
-def validate(model: SurrogateModel, n: int = 6000, seed: int = 777, n_jobs: int = -1) -> dict:
+def validate(model: SurrogateModel, n: int = 6000, seed: int = VALIDATE_SEED, n_jobs: int = -1) -> dict:
     """Metrics of ``model`` against ``n`` fresh solver runs (>= 5000 recommended)."""
     d = fresh_designs(model, n, seed)
     t = time.perf_counter()
