@@ -26,6 +26,8 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
+from ._cpu import available_cores
+
 NUMPY_CHUNK = 1 << 17  #: rows x trees per numpy step of the plain walk
 WALK_CHUNK = 256  #: rows per step (and per thread work unit) of the binned walk: (rows, trees) node arrays stay in L2
 THREAD_MIN_ROWS = 8 * WALK_CHUNK  #: smaller batches run in the calling thread
@@ -44,11 +46,7 @@ def threads(explicit: int | None = None) -> int:
                 return min(int(value), MAX_THREADS)
         except (TypeError, ValueError):
             continue
-    try:
-        cores = len(os.sched_getaffinity(0))
-    except (AttributeError, OSError):  # not every platform has an affinity mask
-        cores = os.cpu_count() or 1
-    return max(1, min(cores, MAX_THREADS))
+    return max(1, min(available_cores(), MAX_THREADS))
 
 
 class TreeEnsemble:

@@ -15,7 +15,6 @@ a neutral part, zero on the boundary.
 from __future__ import annotations
 
 import multiprocessing
-import os
 import sys
 import threading
 from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor
@@ -23,6 +22,7 @@ from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor
 import numpy as np
 
 from .._constants import K_B_EV, NM, Q
+from .._cpu import available_cores
 from .._depletion import prepare, row_status, outputs, solve_pcore
 from .._bulk import exact_levels
 from .._design import REGIMES, DesignTable, normalize_designs
@@ -406,7 +406,7 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     table = ph["table"]
     rows = np.flatnonzero(table.ok)
     parts = [rows[i:i + batch] for i in range(0, rows.size, batch)]
-    workers = _cores() if n_jobs == -1 else max(1, int(n_jobs))
+    workers = available_cores() if n_jobs == -1 else max(1, int(n_jobs))
     if workers == 1 or len(parts) <= 1:
         results = [_chunk(ph, s, statistics, nodes, max_iter=max_iter, tridiagonal=tridiagonal) for s in parts]
     else:
@@ -415,13 +415,6 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     out["ionisation"] = np.where(out["status"] == "ok", ionisation_column(table, ph["incomplete"]), "").astype(object)
     return out
 
-
-def _cores() -> int:
-    """Cores this process may run on (its CPU affinity where the platform has one)."""
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):
-        return os.cpu_count() or 1
 
 
 _FLOAT_OUT = ("vbi_V", "vbi0_V", "core_neutral_radius_nm", "shell_neutral_nm", "surface_bending_V",
