@@ -16,7 +16,7 @@ from ._design import REGIMES, DesignTable, normalize_designs
 from ._features import DIT_FLOOR, FEATURE_NAMES, FEATURES_VERSION, features
 from ._ionisation import check_ionisation, row_dopants
 from ._gp import GaussianProcess
-from ._single import features_one, one_design
+from ._single import feature_row, features_one, one_design
 from ._trees import TreeEnsemble
 
 #: regime probability below which a design is flagged for the solver (``--confirm`` re-answers it).
@@ -331,19 +331,22 @@ class SurrogateModel:
         k, n = off.shape[0], sub.n
         if k <= 1 or n == 0:
             return da["vbi_V"] + residual
-        if n == 1:  # one design: its neighbours through the scalar fast path (same numbers, ~3x faster)
+        if n == 1 and sub.status[0] == "ok":  # one design: its neighbours in plain floats (same numbers, ~4x faster)
+            inc = (self.ionisation_ != "full" and bool(row_dopants(sub, self.ionisation_)[0][0])) if incomplete is None \
+                else bool(incomplete[0])  # the neighbours share it (material and temperature alone)
             near_rows = []
-            for j in range(k):
-                vals = dict(sub.values)
-                for i, c in enumerate(SMOOTH_COLUMNS):
-                    vals[c] = sub.values[c] * 10.0 ** off[j, i]
-                one = features_one(DesignTable(n=1, material=sub.material, p_core=sub.p_core, values=vals,
-                                               status=sub.status), self.statistics, self.ionisation_,
-                                   None if incomplete is None else bool(incomplete[0]))
-                if one is None:
-                    break  # the general path below decides (and keeps the unsmoothed residual)
-                near_rows.append(one[0][0])
-            else:
+            if not inc:
+                base = {c: float(x[0]) for c, x in sub.values.items()}
+                material, p_core = str(sub.material[0]), bool(sub.p_core[0])
+                for scale in _smooth_scales(self.smooth_points, self.smooth_dex):
+                    vals = dict(base)
+                    for c, s in zip(SMOOTH_COLUMNS, scale):
+                        vals[c] = base[c] * s
+                    got = feature_row(vals, material, p_core, self.statistics)
+                    if got is None:
+                        break  # the general path below decides (and keeps the unsmoothed residual)
+                    near_rows.append(got[0])
+            if len(near_rows) == k:
                 return da["vbi_V"] + self.vbi_forest_.raw(np.array(near_rows))[:, 0].reshape(k, 1).mean(0)
         values = {c: np.tile(v, k) for c, v in sub.values.items()}
         for j, c in enumerate(SMOOTH_COLUMNS):
@@ -375,6 +378,17 @@ class SurrogateModel:
             out["tree"][rows] = np.where(good, np.abs(y[rows] - centre) / np.exp(raw[:, sl["difficulty"]][:, 0]), np.nan)
             out["gp"][rows] = np.where(good, np.abs(y[rows] - da["vbi_V"] - gm) / gs, np.nan)
         return out
+
+
+_SCALES: dict = {}  #: (k, dex) -> per neighbour, the factors 10**offset of ``SMOOTH_COLUMNS`` (floats)
+
+
+def _smooth_scales(k: int, dex: float) -> tuple:
+    """``10.0 ** smooth_offsets(k, dex)`` as tuples of Python floats, built once per (k, dex)."""
+    key = (int(k), float(dex))
+    if key not in _SCALES:
+        _SCALES[key] = tuple(tuple(float(10.0 ** o) for o in row) for row in smooth_offsets(*key))
+    return _SCALES[key]
 
 
 def smooth_offsets(k: int = SMOOTH_POINTS, dex: float = SMOOTH_DEX) -> np.ndarray:

@@ -295,11 +295,24 @@ def features_one(table: DesignTable, statistics: str, ionisation: str = "full", 
     if incomplete:
         return None
     v = {k: float(x[0]) for k, x in table.values.items()}
+    got = feature_row(v, str(table.material[0]), bool(table.p_core[0]), statistics)
+    if got is None:
+        return None
+    row, sol = got
+    da = {k: np.array([x]) for k, x in sol.items() if k != "regime"}
+    da.update(regime=np.array([REGIMES[sol["regime"]]], dtype=object), engine=np.array(["depletion"], dtype=object),
+              status=np.array(["ok"], dtype=object))
+    return np.array([row]), da
+
+
+def feature_row(v: dict, material: str, p: bool, statistics: str):
+    """The feature row (a list of floats) and the depletion outputs (floats) of one design given
+    as column -> float ``v`` of a valid row under full ionisation, or None (``features_one``'s
+    core, which the V_bi smoothing calls for each neighbour of a single design)."""
     if v["interlayer_nm"] > 0:
         return None
     try:
-        Eg, eps_r, nc, nv, cnl0 = material_constants(str(table.material[0]), v["temperature_K"])
-        p = bool(table.p_core[0])
+        Eg, eps_r, nc, nv, cnl0 = material_constants(material, v["temperature_K"])
         kt = K_B_EV * v["temperature_K"]
         cnl = cnl0 if math.isnan(v["cnl_eV"]) else v["cnl_eV"]
         na, nd = v["core_doping_cm3"], v["shell_doping_cm3"]
@@ -323,7 +336,4 @@ def features_one(table: DesignTable, statistics: str, ionisation: str = "full", 
         return None
     if not all(map(math.isfinite, row)):
         return None
-    da = {k: np.array([x]) for k, x in sol.items() if k != "regime"}
-    da.update(regime=np.array([REGIMES[sol["regime"]]], dtype=object), engine=np.array(["depletion"], dtype=object),
-              status=np.array(["ok"], dtype=object))
-    return np.array([row]), da
+    return row, sol

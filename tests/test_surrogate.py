@@ -40,6 +40,13 @@ def test_exported_trees_reproduce_sklearn_including_missing_values():
         want = est._raw_predict(X)
         want = want.T if want.shape[0] != X.shape[0] else want
         np.testing.assert_allclose(ens.raw_numpy(X), want, rtol=0, atol=1e-12)
+        # every walk raw() picks by batch size: one row, a few (float thresholds), a chunk and
+        # many chunks (threshold ranks), with and without missing values
+        full = ~np.isnan(X).any(1)
+        for rows in (X[full][:1], X[full][:8], X[full][:200], X[full], X[:8], X):
+            got = ens.raw(rows)
+            ref = est._raw_predict(rows)
+            np.testing.assert_allclose(got, ref.T if ref.shape[0] != rows.shape[0] else ref, rtol=0, atol=1e-12)
     stacked = TreeEnsemble.stack([TreeEnsemble(export_hgb(reg)), TreeEnsemble(export_hgb(clf))])
     both = stacked.raw_numpy(X)
     np.testing.assert_allclose(both[:, :1], reg._raw_predict(X).reshape(-1, 1), atol=1e-12)
