@@ -56,10 +56,14 @@ def neutral_level(N, dos_major, dos_minor, Eg, kt, statistics, level=None, degen
     # lower |y|) lies below the root; a fixed -3 eV clipped degenerate narrow-gap levels (issue 10)
     with np.errstate(all="ignore"):
         deep = kt * reduced_level(N / dos_major, 1.0, statistics)
-    lo = np.minimum(-3.0, -np.where(np.isfinite(deep), deep, 0.0) - 1.0)
+    majority = -np.where(np.isfinite(deep), deep, 0.0)
+    lo = np.minimum(-3.0, majority - 1.0)
     hi = Eg + 3.0
+    # started at the majority-only level, next to the root: from the bracket's middle, Newton on
+    # these exponentials moves about kT per step and at 77 K ran out of steps with the Fermi
+    # level 0.1 eV off (Boltzmann InAs and Ge, about 2 rows in 1,000)
     with np.errstate(all="ignore"):
-        y, _ = solve_bracketed(f, p, lo, hi, xtol=LEVEL_XTOL)
+        y, _ = solve_bracketed(f, p, lo, hi, x0=np.clip(majority, lo, hi), xtol=LEVEL_XTOL)
     return y
 
 

@@ -92,11 +92,11 @@ def fermi_half_and_derivative(eta):
     eta = np.asarray(eta, dtype=float)
     if eta.size and ETA_LO <= eta.min() and eta.max() <= ETA_HI:  # common case: all in the table
         return _table_eval(eta)
-    f = np.empty_like(eta)
-    df = np.empty_like(eta)
+    f = np.full_like(eta, np.nan)  # NaN in, NaN out (never a table index from NaN)
+    df = np.full_like(eta, np.nan)
     lo = eta < ETA_LO
     hi = eta > ETA_HI
-    mid = ~(lo | hi)
+    mid = (eta >= ETA_LO) & (eta <= ETA_HI)
     if lo.any():
         e = np.exp(eta[lo])
         f[lo] = e - e * e / 2.0 ** 1.5

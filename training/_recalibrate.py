@@ -17,7 +17,7 @@ from .._model import SMOOTH_DEX, SMOOTH_POINTS, SurrogateModel
 from ._card import render_card
 from ._dataset import split_designs
 from ._fit import LEVEL, MIN_GROUP_ROWS, conformal_block
-from ._solver import SAME_FULL_IONISATION, SOLVER_VERSION, solve
+from ._solver import RECALIBRATES_FROM, SOLVER_VERSION, solve
 from ._spec import load_spec
 
 
@@ -30,7 +30,7 @@ def recalibrate_bundle(path, spec_path, n_jobs: int = -1, solved: dict | None = 
     meta, arrays = read_bundle(path)
     if meta.get("spec_sha256") != spec.digest():
         raise BundleError(f"bundle {path.name}: built from another spec than {spec_path}; recalibrate with its own")
-    if meta.get("solver_version") not in (SOLVER_VERSION, *SAME_FULL_IONISATION):
+    if meta.get("solver_version") not in (SOLVER_VERSION, *RECALIBRATES_FROM):
         raise BundleError(f"bundle {path.name}: fitted on solver {meta.get('solver_version')}, this is "
                           f"{SOLVER_VERSION}; retrain it (`radialpn train`)")
     old = dict(meta.get("conformal", {}))

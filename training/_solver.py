@@ -29,7 +29,7 @@ from .._design import REGIMES, DesignTable, normalize_designs
 from .._errors import DesignError
 from .._ionisation import check_ionisation, ionisation_column, row_dopants
 from .._profiles import fermi_minus_ev
-from .._statistics import check_statistics, occupancy
+from .._statistics import ETA_LO, check_statistics, occupancy
 from .._tunnel import tunnel_log10
 from .._validity import beyond_parabolic, penetration_text
 
@@ -40,12 +40,15 @@ from ._tridiag import METHODS as TRIDIAGONAL_METHODS
 #: recorded in every training row; bump when results can change. 1.2: incomplete ionisation (default
 #: "auto": on below 200 K and for deep dopants); rows resolved to full ionisation answer as in 1.1.
 #: 1.3: a surface layer's edge at its region's zero-charge level instead of interpolated between
-#: nodes (``analyse``): changes 2.5 % of whole-domain designs, by at most their grid error
+#: nodes, and the node at b judged by the shell's charge too (``analyse``): about 3 % of
+#: whole-domain designs move (380 of 12,872), nearly all by less than 0.2 mV, a few by tens of mV
+#: up to 262 mV (1.2's grid error on them); the bulk levels' search starts next to its root
 SOLVER_VERSION = "1.3"
-#: earlier versions whose answers this one reproduces to within its grid error (1.1 under full
-#: ionisation, 1.2 but for the surface-layer edge): a bundle fitted on them is recalibrated and
-#: validated as if fitted on this one
-SAME_FULL_IONISATION = ("1.1", "1.2")
+#: earlier versions a bundle may have been fitted on and still be recalibrated and validated
+#: against this one (``_recalibrate``: new quantiles from this solver's answers): 1.1 answers
+#: as 1.2 under full ionisation; 1.2 as 1.3 but on the rows above, 3 % of the whole domain and
+#: at most 1 in 3,000 of a shipped bundle's domain beyond 0.1 mV (ge-ncore; 11 bundles within 0.034 mV)
+RECALIBRATES_FROM = ("1.1", "1.2")
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
 BATCH = 128  #: designs per Newton batch: each working array (NODES x BATCH) stays in a core's L2 cache
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
@@ -95,11 +98,24 @@ def intrinsic_level(Eg, Nv, Nc, kT, statistics: str, steps: int = 3) -> np.ndarr
     with np.errstate(all="ignore"):
         y = 0.5 * Eg + 0.5 * kT * np.log(Nv / Nc)
         for _ in range(steps):
-            fp, dfp = occupancy(-y / kT, statistics)
-            fn, dfn = occupancy((y - Eg) / kT, statistics)
-            g = np.log(Nc * fn) - np.log(Nv * fp)
-            y = y - g / ((dfn / fn + dfp / fp) / kT)
+            lp, dlp = _ln_occupancy(-y / kT, statistics)
+            ln_, dln = _ln_occupancy((y - Eg) / kT, statistics)
+            g = np.log(Nc) + ln_ - np.log(Nv) - lp
+            y = y - g / ((dln + dlp) / kT)
     return y
+
+
+def _ln_occupancy(eta, statistics: str):
+    """ln F(eta) [1] and its eta-derivative [1] without underflow: n and p at mid-gap of a wide
+    gap at low temperature are below the smallest float (GaN at 25 K: e^-800), their logarithms
+    are not. Below ``ETA_LO`` F_1/2 = e^eta (1 - e^eta / 2^(3/2)) (the series the runtime uses)."""
+    if statistics == "boltzmann":
+        return eta, np.ones_like(eta)
+    f, df = occupancy(np.maximum(eta, ETA_LO), statistics)
+    e = np.exp(np.minimum(eta, ETA_LO))
+    deep = eta < ETA_LO
+    return (np.where(deep, eta + np.log1p(-e / 2.0 ** 1.5), np.log(f)),
+            np.where(deep, (1.0 - e / 2.0 ** 0.5) / (1.0 - e / 2.0 ** 1.5), df / f))
 
 
 def _chunk(ph: dict, sel, statistics: str, nodes: int, profiles: bool = False, max_iter: int = MAX_ITER,
@@ -264,7 +280,7 @@ def analyse(y, r, p, a, b, statistics, levels):
     charge > 0, so y rises into the surface), the accumulation layer, the run of nodes from R
     inwards with net negative space charge (n - p > N_D in the shell, continued into the
     interlayer and core while they are inverted, n > p), is left out of the shell's maximum, which
-    is taken up to the point where the space charge changes sign (linear interpolation); the share
+    is taken up to the point where the space charge changes sign (see below); the share
     it would add is ``surface_accumulation_V``. Likewise, where a depleting surface's layer (net
     positive charge) runs through the shell and interlayer into the core and accumulates holes
     there beyond N_A, the core's minimum is taken inside the layer's edge and the share left out
@@ -275,11 +291,12 @@ def analyse(y, r, p, a, b, statistics, levels):
     where D_it = 0 (zero surface field: the surface is itself the extremum). The peak field is
     the largest |dy/dr| between the core's minimum and the shell's maximum (the junction).
 
-    Where a layer's space charge changes sign between two nodes, y there is the level at which
-    that region's space charge vanishes: the net charge is a monotone function of y alone within a
-    region (carriers and ionised dopants depend on the local y only), so the sign change lies
-    exactly at ``levels`` (B,) [eV]: ``"core"`` (neutral core, p - n = N_A-), ``"shell"`` (neutral
-    shell, n - p = N_D+) or ``"intrinsic"`` (interlayer, n = p). Interpolating y linearly
+    Where a layer's criterion changes sign between two nodes, y there is the level at which it
+    vanishes: within a region it is a monotone function of y alone (carriers and ionised dopants
+    depend on the local y only), so the sign change lies exactly at ``levels`` (B,) [eV]:
+    ``"core"`` (neutral core, p - n = N_A-), ``"shell"`` (neutral shell, n - p = N_D+) or
+    ``"intrinsic"`` (n = p: the interlayer, and the core, where the accumulation layer's
+    criterion is inversion, n > p, rather than the space charge). Interpolating y linearly
     between the nodes instead would put an error of up to the step of y between them into V_bi,
     tens of mV where a thin lightly doped shell meets an accumulating surface (solver 1.2).
     """
