@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 
 import numpy as np
+from rich.markup import escape
 from rich.panel import Panel
 from rich.text import Text
 
@@ -43,7 +44,13 @@ def cmd_profile(args, console, out) -> int:
     table = radialpn.normalize_designs({k: [v] for k, v in design.items()})
     if table.status[0] != "ok":
         raise _errors.UsageError(flag_hint(str(table.status[0])))
-    main = radialpn.profile(design, args.engine, args.statistics, args.ionisation)
+    try:
+        main = radialpn.profile(design, args.engine, args.statistics, args.ionisation)
+    except radialpn.DesignError:
+        raise
+    except radialpn.RadialpnError as exc:  # a valid design this engine gives no number: say why, as `ask` does
+        console.print(f"[bold #d9534f]no answer:[/] {escape(str(exc))}")
+        return _errors.NO_ANSWER
     other = None
     if args.compare:
         try:

@@ -9,6 +9,7 @@ import math
 from html import escape
 
 import numpy as np
+from rich.markup import escape as markup_escape
 
 import radialpn
 
@@ -55,10 +56,17 @@ def cmd_report(args, console, out) -> int:
         raise _errors.UsageError(f"--cells: expected WIDTHxHEIGHT, e.g. 24x12 (got {args.cells!r})") from None
     spreads = _spreads(args.spread) if args.spread else None
     plt = _png.pyplot() if args.pdf else None  # fail before the work if matplotlib is missing
-    with console.status("computing the review: answer, solver check, bands, map, critical dimensions, yield"):
-        rv = radialpn.review(design_from_args(args), spreads, args.samples, cells, **target_from_args(args),
-                             engine=args.engine, statistics=args.statistics, seed=args.seed,
-                             ionisation=args.ionisation)
+    design = design_from_args(args)
+    try:
+        with console.status("computing the review: answer, solver check, bands, map, critical dimensions, yield"):
+            rv = radialpn.review(design, spreads, args.samples, cells, **target_from_args(args),
+                                 engine=args.engine, statistics=args.statistics, seed=args.seed,
+                                 ionisation=args.ionisation)
+    except radialpn.DesignError:
+        raise
+    except radialpn.RadialpnError as exc:  # a valid design the reference solver gives no number: no sheet
+        console.print(f"[bold #d9534f]no answer:[/] {markup_escape(str(exc))} (no review sheet written)")
+        return _errors.NO_ANSWER
     if args.output:
         with atomic_text(args.output, "-o") as fh:
             fh.write(page(rv))

@@ -168,6 +168,27 @@ def test_profile_json_arrays():
     assert np.allclose(np.array(data["ec_eV"]) - np.array(data["ev_eV"]), 1.424, atol=1e-12)
 
 
+def test_profile_refuses_what_the_solver_refuses(tmp_path):
+    # a surface pinned 3 eV above E_v of GaAs (E_g 1.42 eV) puts the surface Fermi level inside
+    # the conduction band beyond the parabolic-band limit (docs/physics.md section 8.6): `solve`
+    # gives no number, so neither may `profile` (it drew the bands with V_bi 0.438 V before)
+    design = dict(material="GaAs", core_type="p", core_radius_nm=45, shell_thickness_nm=30, core_doping_cm3=5e17,
+                  shell_doping_cm3=2e18, dit_cm2eV=5e12, cnl_eV=3.0)
+    status = radialpn.solve(design)["status"][0]
+    assert status.startswith("outside the model")
+    with pytest.raises(radialpn.RadialpnError, match="outside the model") as err:
+        radialpn.profile(design)
+    assert str(err.value) == status
+    code, text, _ = run(["profile", "--material", "GaAs", "--core-type", "p", "--core-radius", "45nm",
+                         "--shell-thickness", "30nm", "--core-doping", "5e17", "--shell-doping", "2e18",
+                         "--dit", "5e12", "--cnl", "3"])
+    assert code == 3 and "no answer" in text and "V_bi" not in text
+    code, text, _ = run(["report", "--material", "GaAs", "--core-type", "p", "--core-radius", "45nm",
+                         "--shell-thickness", "30nm", "--core-doping", "5e17", "--shell-doping", "2e18",
+                         "--dit", "5e12", "--cnl", "3", "-o", str(tmp_path / "sheet.html")])
+    assert code == 3 and "no answer" in text and not (tmp_path / "sheet.html").exists()
+
+
 def test_batch_solver_engine(tmp_path):
     src = tmp_path / "in.csv"
     src.write_text("material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n"

@@ -10,7 +10,7 @@ from .._errors import RadialpnError
 from .._ionisation import check_ionisation
 from .._statistics import check_statistics
 
-from ._solver import NODES, _chunk, _physics
+from ._solver import NODES, _chunk, _physics, _validity
 
 
 def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = NODES, ionisation: str = "auto") -> dict:
@@ -19,7 +19,8 @@ def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = N
     Returns ``r_nm`` [nm], ``ec_eV``, ``ev_eV`` [eV, E_F = 0], ``n_cm3``, ``p_cm3`` [cm^-3] on the
     solver's grid, with ``regime``, ``vbi_V``, ``core_radius_nm``, ``interlayer_end_nm``,
     ``outer_radius_nm``, the neutral extents and ``ionisation`` (the model used). Raises ``DesignError`` on bad input and
-    ``RadialpnError`` if the solver does not converge.
+    ``RadialpnError`` with the solver's reason where ``solve`` gives the row no number (no
+    convergence, a non-finite output, a Fermi level beyond the parabolic-band limit).
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)
@@ -28,8 +29,11 @@ def solver_profile(design: dict, statistics: str = "fermi-dirac", nodes: int = N
     if ph["table"].status[0] != "ok":
         raise RadialpnError(str(ph["table"].status[0]))
     res = _chunk(ph, np.array([0]), statistics, nodes, profiles=True)
-    if not res["converged"][0]:
-        raise RadialpnError(f"solver: no convergence in {res['iterations'][0]} Newton steps")
+    # the solver's own checks on its answer (convergence, finite outputs, Fermi levels within the
+    # parabolic-band limit): a design `solve` refuses gets no profile either
+    status = _validity(res, ph["table"].p_core[:1], ph["table"].values["dit_cm2eV"][:1])[0]
+    if status != "ok":
+        raise RadialpnError(str(status))
     y, r, eg = res["y"][:, 0], res["r"][:, 0], float(res["Eg"][0])
     ev, ec = -y, eg - y
     hole, elec = res["hole"][:, 0], res["elec"][:, 0]
