@@ -39,7 +39,7 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int | None = None, n_
     """
     from .training._solver import NODES, solve as _solve  # the solver's code lives in training/
 
-    return _solve(designs, statistics, nodes=NODES if nodes is None else int(nodes), n_jobs=n_jobs,
+    return _solve(designs, statistics, nodes=NODES if nodes is None else nodes, n_jobs=n_jobs,
                   ionisation=ionisation)
 
 

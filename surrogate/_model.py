@@ -278,6 +278,8 @@ class SurrogateModel:
                     if t == col:
                         flag |= kept & (val < MIN_NEUTRAL_NM)
                         val = np.where(kept, np.clip(val, MIN_NEUTRAL_NM, sub.values[dim]), 0.0)
+                if t == "surface_bending_V":  # no surface states, no surface field: exactly flat (as the solver)
+                    val = np.where(sub.values["dit_cm2eV"] == 0, 0.0, val)
                 out[t][rows] = val
             if second_opinion:
                 gm, gs = self.gp_.predict((X - self.gp_mean_) / self.gp_scale_)

@@ -152,8 +152,10 @@ def regime_probabilities(out: dict) -> dict:
 def main_effects(samples: dict, columns, success: np.ndarray, bins: int = 20) -> dict:
     """First-order (main-effect) share of the variance of ``success`` explained by each column:
     Var(E[success | x_i]) / Var(success), estimated by quantile binning (Saltelli et al., Global
-    Sensitivity Analysis: The Primer, Wiley 2008, sec. 1.2.5)."""
+    Sensitivity Analysis: The Primer, Wiley 2008, sec. 1.2.5). No runs: NaN for every column."""
     y = success.astype(float)
+    if not y.size:
+        return {col: float("nan") for col in columns}
     var = y.var()
     out = {}
     for col in columns:

@@ -4,6 +4,7 @@ that random and malformed input never produces a traceback and never loses a row
 import csv
 import io
 import json
+import math
 
 import numpy as np
 import pytest
@@ -190,3 +191,13 @@ def test_spread_and_size_agree_with_ask_at_the_same_points():
         argv[argv.index("45nm")] = f"{crit + dx}nm"
         r = json.loads(run(argv)[2])
         assert (r["vbi_V"] >= 0.9 * r["vbi0_V"]) is holds
+
+
+def test_spread_with_no_answered_run_says_why():
+    # 1e21 cm^-3 GaAs puts the core's Fermi level beyond the parabolic-band limit for every run
+    # (docs/physics.md section 8.6): no yield, the reason, NaN effects; never a bare numpy error
+    w = dict(material="GaAs", core_type="p", core_radius_nm=45, shell_thickness_nm=30, core_doping_cm3=1e21,
+             shell_doping_cm3=1e21, dit_cm2eV=5e12)
+    r = radialpn.spread(w, {"dit_cm2eV": "10%"}, samples=1000)
+    assert r["answered"] == 0 and math.isnan(r["yield"]) and "no run was answered" in r["reason"]
+    assert math.isnan(r["main_effects"]["dit_cm2eV"])

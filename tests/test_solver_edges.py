@@ -282,3 +282,15 @@ def test_wide_gap_at_the_lowest_temperature_answers_or_refuses():
     ok = out["status"] == "ok"
     assert ok.any() and np.allclose(out["vbi_V"][ok], auto["vbi_V"][ok], rtol=0, atol=1e-9)
     assert ((0 <= out["vbi_V"][ok]) & (out["vbi_V"][ok] <= out["vbi0_V"][ok] + 1e-3)).all()
+
+
+@pytest.mark.parametrize("kw, field", [(dict(nodes=4), "nodes"), (dict(nodes=0), "nodes"), (dict(nodes="x"), "nodes"),
+                                       (dict(nodes=400.5), "nodes"), (dict(nodes=True), "nodes"),
+                                       (dict(n_jobs="x"), "n_jobs"), (dict(n_jobs=0), "n_jobs")])
+def test_solver_options_are_checked(kw, field):
+    # common practice: a numerical option outside its range is refused with the field named, never
+    # answered on a grid too coarse to mean anything (nodes=4 gave another regime) or a bare error
+    w = dict(material="GaAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30, core_doping_cm3=1e18,
+             shell_doping_cm3=1e18, dit_cm2eV=1e12)
+    with pytest.raises(radialpn.DesignError, match=f"^{field}: .*an integer in"):
+        radialpn.solve(w, **kw)

@@ -297,3 +297,17 @@ shard_rows = 1024
             load_bundle(tmp_path / "bundle")
     finally:
         radialpn.register_material(mine)
+
+
+def test_surface_is_flat_without_surface_states():
+    # D_it = 0: no surface charge, so by Gauss's law no field at R and no bending (docs/physics.md
+    # section 8.6; the solver gives exactly 0). The bending model's residual was up to 1.4 mV there.
+    rng = np.random.default_rng(1)
+    n = 500
+    d = dict(material="GaAs", core_type="p", core_radius_nm=10 ** rng.uniform(1, 2.4, n),
+             shell_thickness_nm=10 ** rng.uniform(0.5, 2.4, n), core_doping_cm3=10 ** rng.uniform(16, 19, n),
+             shell_doping_cm3=10 ** rng.uniform(16, 19, n), dit_cm2eV=0.0)
+    batch = radialpn.predict(d, engine="surrogate")
+    one = radialpn.predict({k: (v[0] if np.ndim(v) else v) for k, v in d.items()}, engine="surrogate")
+    assert (batch["status"] == "ok").all() and (batch["surface_bending_V"] == 0.0).all()
+    assert one["surface_bending_V"][0] == 0.0

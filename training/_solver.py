@@ -50,6 +50,7 @@ SOLVER_VERSION = "1.3"
 #: at most 1 in 3,000 of a shipped bundle's domain beyond 0.1 mV (ge-ncore; 11 bundles within 0.034 mV)
 RECALIBRATES_FROM = ("1.1", "1.2")
 NODES = 400  #: grid nodes per design: V_bi within 0.1 mV of a 4x finer grid (benchmarks/bench_solver.py)
+NODES_RANGE = (50, 10_000)  #: nodes a caller may ask for: every region keeps its 6 intervals; memory stays ~0.1 GB
 BATCH = 128  #: designs per Newton batch: each working array (NODES x BATCH) stays in a core's L2 cache
 H0_DEBYE = 0.5  #: spacing at an edge, in Debye lengths of the heavier doping
 H0_MAX_NM = 1.0  #: ... but at most this [nm]
@@ -87,6 +88,15 @@ def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
     return dict(prob=prob, sol=sol, da_ok=da_ok, kT=lv["kT"], Nv=lv["Nv"], Nc=lv["Nc"], b=prob["a"] + il,
                 y_core=lv["y_core"], y_shell=lv["y_shell"], y_int=y_int, dopants=dop, table=table,
                 incomplete=incomplete)
+
+
+def _count(field: str, value, lo: int, hi: int, also: str = "") -> int:
+    """``value`` as an int in [lo, hi], else a DesignError naming ``field`` (a float such as 400.0
+    is taken; 4.5, True or "400" are not)."""
+    ok = isinstance(value, (int, np.integer, float, np.floating)) and not isinstance(value, (bool, np.bool_))
+    if ok and float(value).is_integer() and lo <= value <= hi:
+        return int(value)
+    raise DesignError(field, f"{also}an integer in [{lo}, {hi}]", value)
 
 
 def intrinsic_level(Eg, Nv, Nc, kT, statistics: str, steps: int = 3) -> np.ndarray:
@@ -414,6 +424,10 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)
+    nodes = _count("nodes", nodes, *NODES_RANGE)
+    batch = _count("batch", batch, 1, 100_000)
+    max_iter = _count("max_iter", max_iter, 1, 10_000)
+    n_jobs = -1 if n_jobs == -1 and not isinstance(n_jobs, bool) else _count("n_jobs", n_jobs, 1, 1024, "-1 or ")
     if tridiagonal not in TRIDIAGONAL_METHODS:
         raise DesignError("tridiagonal", f"one of {', '.join(TRIDIAGONAL_METHODS)}", tridiagonal)
     if parallel not in PARALLEL:
