@@ -120,6 +120,8 @@ def read_bundle(path) -> tuple:
         meta = json.loads(data["bundle.json"].decode("utf-8"))
     except (ValueError, UnicodeDecodeError):
         raise BundleError(f"bundle {path}: bundle.json is not JSON") from None
+    except RecursionError:  # nesting deeper than the parser's stack: no bundle writes that
+        raise BundleError(f"bundle {path}: bundle.json is nested too deeply to be a bundle") from None
     if not isinstance(meta, dict) or meta.get("format") != FORMAT:
         raise BundleError(f"bundle {path}: not a radialpn model bundle")
     if meta.get("format_version") != FORMAT_VERSION:

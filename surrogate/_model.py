@@ -94,7 +94,7 @@ class SurrogateModel:
             if self.forest_.feature.max(initial=0) >= d or self.forest_.feature.min(initial=0) < 0:
                 raise ValueError("a tree splits on a feature that does not exist")
             self.forest_._renumbered()  # the fast walk's numbering: each node but a root has one parent
-        except (KeyError, ValueError, IndexError) as exc:
+        except (KeyError, ValueError, IndexError, TypeError) as exc:
             raise BundleError(f"bundle {self.name}: arrays incomplete or inconsistent ({exc})") from None
         raw = self.forest_.raw_numpy(self.ref_X_)
         for n, want in ref.items():  # the numpy evaluator must reproduce the fitted models
@@ -577,7 +577,7 @@ def available() -> list:
                 raise ValueError("too large")
             meta = json.loads((path / "bundle.json").read_text(encoding="utf-8"))
             out.append((name, meta.get("material"), meta.get("core_type"), path))
-        except (OSError, ValueError, AttributeError):
+        except (OSError, ValueError, AttributeError, RecursionError):
             out.append((name, None, None, path))
     return out
 

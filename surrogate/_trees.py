@@ -36,6 +36,7 @@ THREAD_MIN_ROWS = 8 * WALK_CHUNK  #: smaller batches run in the calling thread
 #: 0.17 against 0.25 ms; equal at about 32)
 FLOAT_WALK_ROWS = 16
 MAX_THREADS = 8
+MAX_DEPTH = 64  #: deepest tree a bundle may hold (the fitted ones are at most 12 deep)
 
 
 def threads(explicit: int | None = None) -> int:
@@ -68,6 +69,9 @@ class TreeEnsemble:
         self.baseline = np.ascontiguousarray(arrays["baseline"], dtype=np.float64)
         self.depth = int(arrays["depth"])
         n = self.feature.size
+        # a walk takes depth steps: deeper than the node count is no tree (a crafted 1e9 would hang)
+        if not 0 <= self.depth <= min(n, MAX_DEPTH):
+            raise ValueError(f"tree arrays: depth {self.depth} outside [0, {min(n, MAX_DEPTH)}]")
         for name in ("left", "right"):
             idx = getattr(self, name)
             if idx.size != n or idx.min(initial=0) < 0 or idx.max(initial=0) >= n:

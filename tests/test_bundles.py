@@ -68,6 +68,9 @@ CASES = {
     "other material parameters": (_bad_meta(lambda m: m["material_parameters"].update(band_gap_300_eV=1.5)), None,
                                   "band_gap_300_eV = 1.5 (its training set); the material table now gives 1.424"),
     "unknown ionisation model": (_bad_meta(lambda m: m.update(ionisation="partial")), None, "ionisation must be"),
+    # a walk takes `depth` steps: 1e9 would hang every answer
+    "tree deeper than its nodes": (None, lambda a: {**a, "vbi/depth": np.array(10 ** 9)}, "depth"),
+    "depth not a number": (None, lambda a: {**a, "vbi/depth": np.array([3, 4])}, "inconsistent"),
 }
 
 
@@ -153,3 +156,18 @@ def test_validate_by_default_reproduces_the_shipped_card():
     assert got["seed"] == card["seed"]
     for key in ("regime_accuracy", "interval_coverage", "vbi_mean_mV", "vbi_p99_mV", "flagged_rate"):
         assert got[key] == pytest.approx(card[key], rel=1e-9, abs=1e-9), key
+
+
+def test_deeply_nested_json_is_refused(source, tmp_path):
+    # 100,000 nested lists exceed the JSON parser's recursion limit: a BundleError, never a
+    # RecursionError from `load` or from listing the bundles
+    import hashlib
+
+    d = _copy(source, tmp_path, "deep")
+    (d / "bundle.json").write_text("[" * 100_000 + "]" * 100_000)
+    sums = (d / "SHA256SUMS").read_text().splitlines()
+    digest = hashlib.sha256((d / "bundle.json").read_bytes()).hexdigest()
+    (d / "SHA256SUMS").write_text("\n".join(f"{digest}  bundle.json" if ln.endswith("bundle.json") else ln
+                                            for ln in sums) + "\n")
+    with pytest.raises(radialpn.BundleError, match="nested too deeply"):
+        radialpn.load_bundle(d)
