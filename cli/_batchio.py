@@ -37,9 +37,15 @@ def is_parquet(path) -> bool:
 CSV_SUFFIXES = ("", ".csv", ".txt")
 
 
-def check_output(path) -> None:
-    """A one-line ``UsageError`` if ``-o path`` names a format `batch` does not write."""
-    if path in (None, "-") or is_parquet(path):
+def check_output(path, source=None) -> None:
+    """A one-line ``UsageError`` if ``-o path`` names a format `batch` does not write, or the
+    input file ``source`` itself (replacing the input with the answers would lose it)."""
+    if path in (None, "-"):
+        return
+    if source not in (None, "-") and os.path.exists(path) and os.path.exists(source) \
+            and os.path.samefile(path, source):
+        raise _errors.UsageError(f"-o {path}: that is the input file; write the answers to another file")
+    if is_parquet(path):
         return
     suffix = os.path.splitext(str(path))[1].lower()
     if suffix not in CSV_SUFFIXES:
@@ -134,10 +140,11 @@ def _answer(designs, engine, statistics, second_opinion, confirm, ionisation="au
 
 
 def run_batch(args, console, out, reserved, progress_bar) -> int:
-    chunk_rows = getattr(args, "chunk_rows", None) or CHUNK_ROWS
+    chunk_rows = getattr(args, "chunk_rows", None)
+    chunk_rows = CHUNK_ROWS if chunk_rows is None else chunk_rows
     if chunk_rows < 1:
         raise _errors.UsageError(f"--chunk-rows: a number of rows >= 1 (got {chunk_rows})")
-    check_output(args.output)
+    check_output(args.output, args.input)
     if is_parquet(args.input):
         from ._parquetio import open_parquet
 

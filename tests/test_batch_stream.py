@@ -183,3 +183,17 @@ def test_auto_engine_columns_do_not_depend_on_chunks(tmp_path):
             assert x == y or float(x) == pytest.approx(float(y), rel=1e-12, abs=1e-15)
     got = list(csv.DictReader(io.StringIO(outs[0].decode(), newline="")))
     assert got[-1]["engine"] == "solver" and got[-1]["solver_version"] and got[0]["solver_version"] == ""
+
+
+def test_output_onto_the_input_and_zero_chunk_rows_are_refused(tmp_path):
+    # common practice: answers written over their own input would lose it (directly or through a
+    # symlink); a chunk of 0 rows is no chunk. Both refused before any work, input unchanged.
+    src = tmp_path / "in.csv"
+    text = "material,core_type,core_radius_nm,shell_thickness_nm,core_doping_cm3,shell_doping_cm3,dit_cm2eV\n" \
+           "GaAs,p,60,40,1e18,1e18,1e12\n"
+    src.write_text(text)
+    (tmp_path / "link.csv").symlink_to(src)
+    for argv in (["-o", str(src)], ["-o", str(tmp_path / "link.csv")], ["--chunk-rows", "0"]):
+        code, err, _ = run(["batch", str(src), *argv])
+        assert code == 2 and ("input file" in err or "--chunk-rows" in err)
+    assert src.read_text() == text
