@@ -153,6 +153,10 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
         fields, raw = open_table(args.input, reserved, chunk_rows)
         index = {c: k for k, c in enumerate(fields)}
         chunks = (_CsvChunk(rows, index) for rows in raw)
+    try:  # a header that means an input column but misspells it would be carried along unread
+        radialpn.check_columns(fields)
+    except radialpn.DesignError as exc:
+        raise _errors.UsageError(f"{args.input}: column {exc}") from None
     if not set(fields) & {"material", "core_type", "core_radius_nm"}:
         with contextlib.suppress(Exception):
             chunks.close()

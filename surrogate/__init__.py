@@ -28,7 +28,7 @@ from ._calibrate import calibrate as _calibrate, calibrate_many as _calibrate_ma
 from ._emulator import CalibrationError
 from ._ensemble import autocorr_time, sample as ensemble_sample, split_rhat
 from ._design import (
-    CORE_TYPES, INPUT_COLUMNS, OUTPUT_COLUMNS, REGIMES, DesignTable, check_design,
+    CORE_TYPES, INPUT_COLUMNS, OUTPUT_COLUMNS, REGIMES, DesignTable, check_columns, check_design,
     NUMERIC as NUMERIC_COLUMNS,
     normalize_designs, parse_quantity,
 )
@@ -132,7 +132,7 @@ __all__ = [
     "predict", "solve", "deplete", "profile", "regime_map", "critical_dimensions", "search", "spread",
     "depletion_profile", "target_text", "main_effects", "review", "DEFAULT_SPREADS",
     "load", "load_bundle", "available", "SurrogateModel",
-    "check_design", "normalize_designs", "parse_quantity", "DesignTable",
+    "check_columns", "check_design", "normalize_designs", "parse_quantity", "DesignTable",
     "get_material", "material_names", "register_material", "load_material_file", "material_from_dict", "Material",
     "fermi_half", "fermi_half_inverse", "intrinsic_density", "reduced_level", "ionised_fraction", "bulk_level",
     "IONISATION", "IONISATION_AUTO_BELOW_K", "IONISATION_DEEP_EV", "mott_density",

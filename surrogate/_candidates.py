@@ -10,7 +10,7 @@ import time
 import numpy as np
 
 from . import _search
-from ._design import REGIMES
+from ._design import REGIMES, require_mapping
 from ._engines import DEFAULT_ENGINE, answer, check_engine, solve
 from ._errors import DesignError
 from ._qcommon import _check_count, _column, _range, _reachable, _target, answered_by, design_row, target_text
@@ -64,6 +64,7 @@ def search(design: dict, vary: dict, minimize: str = "total-radius", fraction_mi
     n = _check_count("candidates", candidates, 1000, 50_000_000)
     top = _check_count("top", top, 1, 1000)
     seed = _check_count("seed", seed, 0, 2**63 - 1)
+    require_mapping(design)
     fixed = design_row({**design, **{c: lo for c, (lo, _) in space.items()}})
     for c in ("core_radius_nm", "shell_thickness_nm"):
         if c not in space and c not in design:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
@@ -70,9 +71,13 @@ def parse_quantity(column: str, value) -> float:
     if isinstance(value, (bool, np.bool_)):
         raise DesignError(column, "expected a number, not true/false", value)
     if isinstance(value, (int, float, np.integer, np.floating)):
-        x = float(value)
+        try:
+            x = float(value)
+        except OverflowError:  # a Python int beyond the float range (10**400)
+            raise DesignError(column, f"expected a finite number in [{lo:g}, {hi:g}]",
+                              "an integer beyond the float range") from None
         if not math.isfinite(x):
-            raise DesignError(column, "expected a finite number", value)
+            raise DesignError(column, f"expected a finite number in [{lo:g}, {hi:g}]", value)
         return x
     if not isinstance(value, str):
         raise DesignError(column, f"expected a number with optional unit ({_unit_list(kind)})",
@@ -91,7 +96,7 @@ def parse_quantity(column: str, value) -> float:
         raise DesignError(column, f"unknown unit {m.group(2)!r}; use {_unit_list(kind)}", value)
     x = float(m.group(1)) * UNITS[kind][unit]
     if not math.isfinite(x):
-        raise DesignError(column, "expected a finite number", value)
+        raise DesignError(column, f"expected a finite number in [{lo:g}, {hi:g}]", value)
     return x
 
 
@@ -216,12 +221,46 @@ def _each_category(cols, name, n, st, missing):
         yield value, inv == k
 
 
+#: what a column is taken for when its name differs only in case or lacks its unit
+_NEAR = {**{c.lower(): c for c in INPUT_COLUMNS},
+         **{c.rsplit("_", 1)[0].lower(): c for c in NUMERIC if c.rsplit("_", 1)[0] not in ("core", "shell")}}
+
+
+def near_miss(name) -> bool:
+    """True for a name ``_near_miss`` refuses."""
+    return isinstance(name, str) and name.strip().lower() in _NEAR
+
+
+def near_column(name: str) -> str:
+    """The input column a ``near_miss`` name means."""
+    return _NEAR[name.strip().lower()]
+
+
+def check_columns(names) -> None:
+    """Raise ``DesignError`` for a column name that is an input column's but for case, blanks
+    or its unit suffix (``temperature_k``, ``Material``, ``interlayer``): a table header to check
+    before its rows are read, since such a column would be carried along unread."""
+    for name in names:
+        if name not in INPUT_COLUMNS:
+            _near_miss(name)
+
+
+def _near_miss(name) -> None:
+    """A ``DesignError`` for an extra column whose name is an input column's but for case,
+    surrounding blanks or the unit suffix (``temperature_k``, ``Material``, ``interlayer``): read
+    as an extra column, its values would be ignored and the default used without a word."""
+    if near_miss(name):
+        raise DesignError(name, f"not a column name; did you mean {near_column(name)!r}? (names are "
+                                "case-sensitive and carry their unit)")
+
+
 def normalize_designs(designs) -> DesignTable:
     """Validate designs row by row (see module docstring). Never raises for a bad row; raises
     ``DesignError`` only when the whole input is unusable (ragged columns, wrong container)."""
     cols, rows = _as_columns(designs)
     for k in list(cols):
         if k not in INPUT_COLUMNS:
+            _near_miss(k)
             continue  # extra columns travel with the caller's rows; they are not read
         v = cols[k]
         try:
@@ -293,7 +332,8 @@ def normalize_designs(designs) -> DesignTable:
             x = np.broadcast_to(arr.astype(float), (n,))
             bad = ~np.isfinite(x)
             if bad.any():
-                st.fail(bad, np.array([f"{name}: expected a finite number (got {v})" for v in x], dtype=object))
+                st.fail(bad, np.array([f"{name}: expected a finite number in [{lo:g}, {hi:g}] (got {v})" for v in x],
+                                      dtype=object))
         else:
             uniq, inv = categories(arr, n)
             parsed = np.full(len(uniq), np.nan)
@@ -322,8 +362,16 @@ def normalize_designs(designs) -> DesignTable:
     return DesignTable(n=n, material=material, p_core=p_core, values=values, status=st.array())
 
 
+def require_mapping(design) -> None:
+    """``DesignError`` unless ``design`` is one design, a mapping of column -> value."""
+    if not isinstance(design, Mapping):
+        raise DesignError("design", "one design as a mapping of column -> value (many designs: predict or solve)",
+                          type(design).__name__)
+
+
 def check_design(design: dict) -> DesignTable:
     """Validate one design (a mapping of column -> value); raise ``DesignError`` if it is bad."""
+    require_mapping(design)
     table = normalize_designs({k: [v] for k, v in design.items()})
     if table.status[0] != "ok":
         field, _, rest = str(table.status[0]).partition(": ")

@@ -8,6 +8,8 @@ bundle's trained domain are flagged and get no numbers (never extrapolated).
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 
 from ._bulk import vbi0_bound
@@ -540,6 +542,8 @@ def _check_groups(conf: dict, pooled: dict, need) -> dict:
 
 def load_bundle(path) -> SurrogateModel:
     """Load (and verify) the bundle in directory ``path``."""
+    if not isinstance(path, (str, os.PathLike)):
+        raise BundleError(f"bundle: expected a directory path (got {type(path).__name__})")
     meta, arrays = read_bundle(path)
     return SurrogateModel(meta, arrays, path)
 

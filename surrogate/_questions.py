@@ -15,7 +15,7 @@ import numpy as np
 
 from . import _search
 from ._candidates import OBJECTIVES, SEARCH_CHUNK, search
-from ._design import parse_quantity
+from ._design import parse_quantity, require_mapping
 from ._engines import DEFAULT_ENGINE, answer, check_engine, solve
 from ._errors import DesignError
 from ._qcommon import (SWEPT, _axis, _check_count, _nm, _points, _range, _reachable, _short_goal, _target,
@@ -72,6 +72,7 @@ def regime_map(design: dict, x, y, cells=(32, 16), engine: str = DEFAULT_ENGINE,
     if not isinstance(cells, (tuple, list)) or len(cells) != 2:
         raise DesignError("cells", "expected (nx, ny)", cells)
     nx, ny = (_check_count("cells", c, 2, 400) for c in cells)
+    require_mapping(design)
     base = {k: v for k, v in design.items() if k not in (xcol, ycol)}
     # the fixed part must be valid before a grid is built; its values go on as numbers, not as typed
     base = {k: v for k, v in design_row({**base, xcol: xlo, ycol: ylo}).items() if k not in (xcol, ycol)}

@@ -23,7 +23,7 @@ import numpy as np
 
 from . import _statistics as _st
 from ._constants import CM2_TO_M2, CM3_TO_M3, EPS0, K_B_EV, NM, Q
-from ._design import INPUT_COLUMNS, NUMERIC, REGIMES, DesignTable, parse_quantity
+from ._design import INPUT_COLUMNS, NUMERIC, REGIMES, DesignTable, near_miss, parse_quantity
 from ._errors import RadialpnError
 from ._features import DIT_FLOOR
 from ._ionisation import row_dopants
@@ -43,6 +43,8 @@ def one_design(designs):
     got = {}
     for k, v in designs.items():
         if k not in INPUT_COLUMNS:
+            if near_miss(k):
+                return None  # the general validation refuses it, naming the column meant
             continue
         if type(v) in (list, tuple):
             if len(v) != 1:

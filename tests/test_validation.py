@@ -184,3 +184,34 @@ def test_a_signal_during_batch_output_leaves_no_file(tmp_path, sig):
         assert sum(1 for _ in open(tmp_path / "out.csv")) == 300_001
     if sig == "SIGTERM" and proc.returncode != 0:
         assert proc.returncode == 130 and b"Traceback" not in err
+
+
+@pytest.mark.parametrize("name, meant", [("temperature_k", "temperature_K"), ("Material", "material"),
+                                         ("interlayer", "interlayer_nm"), ("cnl_ev", "cnl_eV"),
+                                         (" dit_cm2eV", "dit_cm2eV")])
+def test_a_misspelled_input_column_is_refused_not_ignored(name, meant, tmp_path):
+    # read as an extra column, temperature_k = 77 was ignored and 300 K used, status ok
+    # (docs/design-table.md, input columns); one design, a table and a CSV header alike
+    for designs in ({**DESIGN, name: 77}, {**{k: [v, v] for k, v in DESIGN.items()}, name: [77, 77]}):
+        with pytest.raises(radialpn.DesignError, match=f"did you mean '{meant}'"):
+            radialpn.predict(designs)
+    src = tmp_path / "in.csv"
+    src.write_text(HEADER + f",{name}\nGaAs,p,60,45,2e18,2e18,5e12,77\n")
+    code, err, _ = run(["batch", str(src)])
+    assert code == 2 and meant in err and len(err.strip().splitlines()) == 1
+    radialpn.check_columns(["id", "notes", *radialpn.INPUT_COLUMNS])  # other names pass
+
+
+def test_one_design_functions_refuse_a_list_and_huge_integers_get_a_status():
+    # common practice: a typed error naming the field, never AttributeError/TypeError/OverflowError
+    rows = [DESIGN, DESIGN]
+    for call in (lambda: radialpn.search(rows, {"shell_thickness_nm": (2, 100)}, vbi_min_V=1.0),
+                 lambda: radialpn.regime_map(rows, ("core_radius_nm", 10, 100), ("shell_thickness_nm", 5, 50)),
+                 lambda: radialpn.profile(rows), lambda: radialpn.spread(rows, {"dit_cm2eV": "10%"})):
+        with pytest.raises(radialpn.DesignError, match="^design: one design as a mapping"):
+            call()
+    with pytest.raises(radialpn.BundleError, match="expected a directory path"):
+        radialpn.load_bundle(None)
+    for value in (10 ** 400, "1e400"):  # beyond the float range, as a Python int and as text
+        status = radialpn.predict({**DESIGN, "core_doping_cm3": value})["status"][0]
+        assert status.startswith("core_doping_cm3: expected a finite number in [1e+12, 1e+21]")
