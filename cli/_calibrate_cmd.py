@@ -14,7 +14,7 @@ from rich.text import Text
 import radialpn
 
 from . import _errors
-from ._csvio import read_table
+from ._csvio import check_suffix, read_table
 from ._designargs import engine_flags, progress_bar
 from ._plot import BrailleCanvas
 
@@ -215,6 +215,7 @@ def write_png(results, path) -> None:
 
 
 def cmd_calibrate(args, console, out) -> int:
+    check_suffix(args.png, "--png", (".png",))
     if not args.unknown:
         raise _errors.UsageError("--unknown: give at least one, e.g. --unknown dit --unknown cnl")
     unknowns = {}

@@ -191,6 +191,14 @@ def _open_temp(folder: str):
     return tempfile.mkstemp(prefix=".radialpn-", suffix=".part", dir=folder)
 
 
+def check_suffix(target, option: str, allowed: tuple) -> None:
+    """A one-line ``UsageError`` before any work if ``target`` (when given) does not end in one
+    of ``allowed`` (lower-case suffixes): a file is never written under a suffix that names
+    another format (HTML as .csv, PNG as .jpg)."""
+    if target and os.path.splitext(str(target))[1].lower() not in allowed:
+        raise _errors.UsageError(f"{option} {target}: this writes {' or '.join(allowed)} files; name one so")
+
+
 @contextlib.contextmanager
 def atomic_text(target: str, option: str, binary: bool = False):
     """Write text (bytes if ``binary``) to ``target`` all or nothing: yields a file object on a

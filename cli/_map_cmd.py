@@ -12,7 +12,7 @@ from rich.text import Text
 import radialpn
 
 from . import _errors, _png
-from ._csvio import atomic_text
+from ._csvio import atomic_text, check_suffix
 from ._axes import UNITS, axis_spec, fmt_value
 from ._designargs import add_design_flags, design_from_args, engine_flags, progress_bar
 from ._render import CAUTION, REGIME_STYLE, answered_by_text
@@ -134,6 +134,8 @@ def render_map(console, xs, ys, xcol, ycol, regime, vbi, mark=None, tunnel=None,
 
 
 def cmd_map(args, console, out) -> int:
+    check_suffix(args.png, "--png", (".png",))
+    check_suffix(args.csv, "--csv", (".csv", ".txt"))
     x, y = axis_spec(args.x, "--x", scaled=True), axis_spec(args.y, "--y", scaled=True)
     try:
         cells = tuple(int(v) for v in args.cells.lower().split("x"))

@@ -13,6 +13,7 @@ import radialpn
 
 from . import _errors, _png
 from . import _format as F
+from ._csvio import check_suffix
 from ._designargs import add_design_flags, design_from_args, flag_hint, ionisation_flag
 from ._plot import BrailleCanvas
 from ._render import CAUTION, design_line, regime_text
@@ -37,6 +38,7 @@ def register(sub) -> None:
 
 
 def cmd_profile(args, console, out) -> int:
+    check_suffix(args.png, "--png", (".png",))
     if not (10 <= args.width <= 400 and 4 <= args.height <= 200):
         raise _errors.UsageError(f"--width/--height: allowed ranges [10, 400] and [4, 200] characters "
                                  f"(got {args.width} and {args.height})")

@@ -17,7 +17,7 @@ from . import _errors, _png
 from . import _format as F
 from . import _svg
 from ._axes import SHORT_LABEL
-from ._csvio import atomic_text
+from ._csvio import atomic_text, check_suffix
 from ._designargs import add_design_flags, design_from_args, engine_flags, target_flags, target_from_args
 from ._render import CAUTION, REGIME_STYLE
 
@@ -50,6 +50,8 @@ def cmd_report(args, console, out) -> int:
 
     if not args.output and not args.pdf:
         raise _errors.UsageError("report: name a file with -o wire.html (and/or --pdf wire.pdf)")
+    check_suffix(args.output, "-o", (".html", ".htm"))
+    check_suffix(args.pdf, "--pdf", (".pdf",))
     try:
         cells = tuple(int(v) for v in args.cells.lower().split("x"))
     except ValueError:

@@ -144,3 +144,18 @@ def test_pdf_where_matplotlib_is_installed(tmp_path):
     code = main(["report"] + FLAGS + ["--pdf", str(pdf), "--samples", "2000", "--cells", "6x4"],
                 console=Console(file=io.StringIO(), width=80, color_system=None), out=io.StringIO())
     assert code == 0 and pdf.read_bytes()[:5] == b"%PDF-"
+
+
+def test_files_are_not_written_under_another_format_s_suffix(tmp_path):
+    # common practice: HTML under .csv or PNG under .jpg misleads whoever opens it; refused
+    # before the work, nothing written
+    plan = ["--material", "GaAs", "--core-type", "p", "--core-radius", "60nm", "--shell-thickness", "45nm",
+            "--core-doping", "2e18", "--shell-doping", "2e18", "--dit", "5e12"]
+    for argv, path in ((["report", *plan, "-o"], "sheet.csv"), (["report", *plan, "-o", "x.html", "--pdf"], "x.png"),
+                       (["map", *plan, "--x", "shell-thickness:5nm:80nm", "--y", "core-radius:20nm:150nm", "--png"],
+                        "m.jpg"), (["profile", *plan, "--png"], "bands.svg")):
+        buf = io.StringIO()
+        code = main([*argv, str(tmp_path / path)], console=Console(file=buf, width=100, color_system=None),
+                    out=io.StringIO())
+        assert code == 2 and "this writes" in buf.getvalue()
+    assert not any(tmp_path.iterdir())
