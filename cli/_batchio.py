@@ -242,7 +242,12 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
                 shutil.copyfileobj(spool, out, 1 << 20)
         elif to_parquet:
             with atomic_text(args.output, "-o", binary=True) as fh:
-                write_all(ParquetSink(fh))
+                sink = ParquetSink(fh)
+                try:
+                    write_all(sink)
+                except BaseException:
+                    sink.abandon()
+                    raise
         else:
             with atomic_text(args.output, "-o") as fh:
                 write_all(_CsvSink(fh))

@@ -7,6 +7,8 @@ batches, so memory stays bounded; the output appears only when complete (``atomi
 
 from __future__ import annotations
 
+import contextlib
+
 import numpy as np
 
 from radialpn import INPUT_COLUMNS
@@ -122,3 +124,12 @@ class ParquetSink:
             self.writer = self.pq.ParquetWriter(self.fh, empty.schema)
             self.writer.write_table(empty)
         self.writer.close()
+
+    def abandon(self):
+        """Drop the writer without its footer while the file is still open (an interrupted or
+        failed run): otherwise pyarrow's finaliser writes to the closed, discarded file later and
+        prints a traceback after 'interrupted'."""
+        writer, self.writer = self.writer, None
+        if writer is not None:
+            with contextlib.suppress(Exception):
+                writer.close()
