@@ -22,6 +22,7 @@ from radialpn import INPUT_COLUMNS, normalize_designs
 
 from . import _errors
 from ._csvio import CHUNK_ROWS, atomic_text, open_table
+from ._resume import Checkpoint
 
 
 SOLVER_EXTRAS = ("core_majority_ln", "shell_majority_ln", "charge_residual", "surface_accumulation_V",
@@ -134,6 +135,33 @@ class _CsvChunk:
         return max(self.n, int(size * self.n / max(nbytes, 1)))
 
 
+def _check_target(target) -> None:
+    """``-o`` must name a file in an existing folder (checked before any work)."""
+    path = os.path.abspath(target)
+    if os.path.isdir(path):
+        raise _errors.UsageError(f"-o {target}: is a folder; name a file")
+    if os.path.exists(path) and not os.path.isfile(path):
+        raise _errors.UsageError(f"-o {target}: not a regular file; name a file in a folder you can write")
+    if not os.path.isdir(os.path.dirname(path)):
+        raise _errors.UsageError(f"-o {target}: folder {os.path.dirname(path)} does not exist")
+
+
+def _skip_rows(chunks, rows: int, partial: str):
+    """``chunks`` without their first ``rows`` rows, which must end on a chunk boundary (the
+    same --chunk-rows as the interrupted run, recorded with it)."""
+    done = 0
+    for c in chunks:
+        if done < rows:
+            done += c.n
+            if done > rows:
+                raise _errors.UsageError(f"--resume: {partial} does not end where a chunk of the input does; "
+                                         "delete it to start again")
+            continue
+        yield c
+    if done < rows:
+        raise _errors.UsageError(f"--resume: {partial} holds more rows than the input; delete it to start again")
+
+
 def _answer(designs, engine, statistics, second_opinion, confirm, ionisation="auto", progress=None):
     return radialpn.predict(normalize_designs(designs), engine=engine, statistics=statistics,
                             second_opinion=second_opinion, confirm=confirm, progress=progress, ionisation=ionisation)
@@ -163,6 +191,13 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
         raise _errors.UsageError(f"{args.input}: no design-table columns in the header (expected e.g. "
                                  f"{', '.join(INPUT_COLUMNS[:4])}; got {', '.join(fields[:4]) or 'nothing'})")
     to_parquet = args.output not in (None, "-") and is_parquet(args.output)
+    resume = bool(getattr(args, "resume", False))
+    checkpoint = None
+    if args.output not in (None, "-") and not to_parquet:  # CSV file out: finished chunks survive an interrupt
+        _check_target(args.output)
+        checkpoint = Checkpoint(args, chunk_rows)
+    elif resume:
+        raise _errors.UsageError("--resume: continues an interrupted `batch -o FILE.csv` (CSV output to a file)")
     if to_parquet:
         from ._parquetio import ParquetSink, require_pyarrow
 
@@ -207,9 +242,12 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
             if size > 20_000_000:  # ~ a second per chunk or more: show the rows done so far
                 update(done, max(total, done))
 
-    def write_all(sink):
-        header_done = False
-        out_cols = None
+    def write_all(sink, resumed=None):
+        header_done = resumed is not None
+        out_cols = resumed[len(fields):] if header_done else None
+        if header_done and resumed[:len(fields)] != fields:
+            raise _errors.UsageError(f"--resume: {checkpoint.path} has other input columns than {args.input}; "
+                                     "delete it to start again")
         for chunk, res in answers():
             if res is None:
                 res = {c: np.zeros(0, dtype=object) for c in radialpn.OUTPUT_COLUMNS}
@@ -223,6 +261,8 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
                     res[c] = (np.zeros(chunk.n, dtype=np.int64) if c == "iterations" else
                               np.full(chunk.n, "", dtype=object) if c == "solver_version" else np.full(chunk.n, np.nan))
             sink.write(chunk, res, out_cols)
+            if checkpoint is not None:
+                checkpoint.chunk_done(chunk.n)
             st = np.asarray(res["status"])
             ok = st == "ok"
             if tally["first"] is None and not ok.all():
@@ -249,8 +289,30 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
                     sink.abandon()
                     raise
         else:
-            with atomic_text(args.output, "-o") as fh:
-                write_all(_CsvSink(fh))
+            fh, header, (done_status, done_regime) = checkpoint.open(resume)
+            if header is not None:  # the rows a resumed run already has: counted, not answered again
+                st = np.asarray(done_status, dtype=object)
+                tally["rows"], tally["good"] = st.size, int((st == "ok").sum())
+                if (st != "ok").any():
+                    k = int(np.flatnonzero(st != "ok")[0])
+                    tally["first"] = (k, str(st[k]))
+                for r in radialpn.REGIMES:
+                    tally["regimes"][r] += done_regime.count(r)
+                chunks = _skip_rows(chunks, st.size, checkpoint.path)
+            try:
+                write_all(_CsvSink(fh), header)
+            except KeyboardInterrupt:
+                kept = checkpoint.interrupted()
+                if kept:
+                    console.print(f"[dim]{kept}[/]")
+                raise
+            except OSError as exc:
+                checkpoint.discard()
+                raise _errors.UsageError(f"-o {args.output}: cannot write ({exc.strerror})") from None
+            except BaseException:
+                checkpoint.discard()
+                raise
+            checkpoint.finish()
     n, good = tally["rows"], tally["good"]
     summary = ", ".join(f"{k} {r}" for r, k in tally["regimes"].items() if k) or "none"
     console.print(f"[dim]{n} rows · {good} answered ({summary}) · {n - good} with a reason "

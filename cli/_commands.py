@@ -48,6 +48,9 @@ def register(sub) -> None:
                        help="surrogate engine: add the Gaussian-process columns and flag disagreements (slower)")
     batch.add_argument("--chunk-rows", type=int, default=None, metavar="N",
                        help="rows read, answered and written at a time (default 20000; bounds memory)")
+    batch.add_argument("--resume", action="store_true",
+                       help="continue an interrupted `batch -o FILE.csv` (the same command): the rows already in "
+                            "FILE.csv.partial are kept, the rest answered")
     batch.add_argument("--scheduler", metavar="ADDRESS",
                        help="answer the chunks on a Dask cluster, e.g. tcp://10.0.0.5:8786 (the cluster extra)")
     batch.set_defaults(handler=cmd_batch)

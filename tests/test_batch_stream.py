@@ -6,6 +6,7 @@ import csv
 import io
 import sys
 
+import numpy as np
 import pytest
 from rich.console import Console
 
@@ -197,3 +198,44 @@ def test_output_onto_the_input_and_zero_chunk_rows_are_refused(tmp_path):
         code, err, _ = run(["batch", str(src), *argv])
         assert code == 2 and ("input file" in err or "--chunk-rows" in err)
     assert src.read_text() == text
+
+
+def test_an_interrupted_batch_keeps_its_finished_chunks_and_resumes_to_the_same_file(tmp_path, monkeypatch):
+    # the standard: no interrupted run loses finished work or leaves a partial output. Ctrl-C in
+    # the third chunk keeps two whole chunks in OUT.partial (OUT itself never appears); a
+    # SIGKILL's half-written tail is cut back; --resume gives the uninterrupted run's bytes.
+    import radialpn as rp
+
+    rng = np.random.default_rng(3)
+    rows = [[f"w{i}", "GaAs", "p", f"{10 ** rng.uniform(1, 2.4):.6g}", f"{10 ** rng.uniform(0.5, 2.4):.6g}",
+             f"{10 ** rng.uniform(16, 19):.4g}", f"{10 ** rng.uniform(16, 19):.4g}", "1e12"] for i in range(300)]
+    src = tmp_path / "in.csv"
+    write(src, rows)
+    whole, out = tmp_path / "whole.csv", tmp_path / "out.csv"
+    base = ["batch", str(src), "--engine", "depletion", "--chunk-rows", "50"]
+    assert run(base + ["-o", str(whole)])[0] == 0
+    real, calls = rp.predict, {"n": 0}
+
+    def stop_in_third_chunk(*a, **k):
+        calls["n"] += 1
+        if calls["n"] == 3:
+            raise KeyboardInterrupt
+        return real(*a, **k)
+
+    monkeypatch.setattr(rp, "predict", stop_in_third_chunk)
+    code, text, _ = run(base + ["-o", str(out)])
+    monkeypatch.setattr(rp, "predict", real)
+    partial = tmp_path / "out.csv.partial"
+    kept = int(" ".join(text.split()).split(" answered rows kept")[0].split()[-1])
+    assert code == 130 and not out.exists() and 90 <= kept <= 100  # two chunks of about 50 rows
+    assert partial.read_bytes() == whole.read_bytes()[:len(partial.read_bytes())]
+    assert len(partial.read_text().splitlines()) == 1 + kept
+    code, text, _ = run(base + ["-o", str(out)])  # a fresh start would overwrite the kept rows: refused
+    assert code == 2 and "--resume" in text
+    code, text, _ = run(["batch", str(src), "--engine", "surrogate", "--chunk-rows", "50", "-o", str(out), "--resume"])
+    assert code == 2 and "another engine" in text
+    with open(partial, "ab") as fh:
+        fh.write(b"GaAs,p,12,3")  # what SIGKILL may leave: part of a chunk after the recorded end
+    code, text, _ = run(base + ["-o", str(out), "--resume"])
+    assert code == 0 and out.read_bytes() == whole.read_bytes() and "300 rows" in text
+    assert not partial.exists() and not (tmp_path / "out.csv.partial.json").exists()
