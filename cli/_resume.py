@@ -47,12 +47,14 @@ class Checkpoint:
         """Start (or, with ``resume``, continue) the partial file. Returns (text file, header
         of the rows already there or None, their ``status`` and ``regime`` cells)."""
         old = self._read_record()
-        if not resume:
-            if old is not None and os.path.exists(self.path):
+        kept = old is not None and int(old["rows"]) > 0 and os.path.exists(self.path)
+        if not resume or (old is not None and int(old["rows"]) == 0):  # nothing finished yet: start afresh
+            if kept and not resume:
                 raise _errors.UsageError(f"-o {self.output}: {self.path} holds {old['rows']:,} answered rows of an "
                                          "interrupted run; add --resume to continue it, or delete it to start again")
             try:
                 self.raw = open(self.path, "wb")
+                self._write_record()  # from the start, so that even SIGKILL leaves the pair, never the file alone
             except OSError as exc:
                 raise _errors.UsageError(f"-o {self.output}: cannot write {self.path} ({exc.strerror})") from None
             self.fh = io.TextIOWrapper(self.raw, encoding="utf-8", newline="", write_through=False)
@@ -90,6 +92,9 @@ class Checkpoint:
         self.fh.flush()
         self.rows += rows
         self.bytes = self.raw.tell()
+        self._write_record()
+
+    def _write_record(self) -> None:
         tmp = self.record + ".tmp"
         with open(tmp, "w", encoding="utf-8") as fh:
             json.dump({"key": self.key, "rows": self.rows, "bytes": self.bytes}, fh)

@@ -161,9 +161,10 @@ def test_design_questions_refuse_bad_arguments():
 
 @pytest.mark.slow
 @pytest.mark.parametrize("sig", ["SIGTERM", "SIGKILL"])
-def test_a_signal_during_batch_output_leaves_no_file(tmp_path, sig):
+def test_a_signal_during_batch_output_leaves_no_partial_output(tmp_path, sig):
     # 300,000 rows take a few seconds to read, answer and write: a signal after 1.5 s lands in
-    # the middle. Whatever phase it hits, the folder must hold only the input afterwards.
+    # the middle. Whatever phase it hits, out.csv is absent or whole; finished chunks may be kept
+    # in out.csv.partial with its record, and --resume then completes the same 300,000 rows.
     import os
     import signal
     import subprocess
@@ -179,8 +180,13 @@ def test_a_signal_during_batch_output_leaves_no_file(tmp_path, sig):
     proc.send_signal(getattr(signal, sig))
     _, err = proc.communicate(timeout=60)
     names = sorted(p.name for p in tmp_path.iterdir())
-    assert names in (["in.csv"], ["in.csv", "out.csv"])  # nothing partial: no output, or the whole of it
-    if names == ["in.csv", "out.csv"]:
+    kept = ["in.csv", "out.csv.partial", "out.csv.partial.json"]
+    assert names in (["in.csv"], ["in.csv", "out.csv"], kept)  # no output, the whole of it, or the kept chunks
+    if names == kept:
+        code = subprocess.run([sys.executable, "-m", "radialpn.cli", "batch", str(src), "-o", str(tmp_path / "out.csv"),
+                               "--engine", "depletion", "--resume"], capture_output=True).returncode
+        assert code == 0 and sorted(p.name for p in tmp_path.iterdir()) == ["in.csv", "out.csv"]
+    if "out.csv" in names or names == kept:
         assert sum(1 for _ in open(tmp_path / "out.csv")) == 300_001
     if sig == "SIGTERM" and proc.returncode != 0:
         assert proc.returncode == 130 and b"Traceback" not in err
