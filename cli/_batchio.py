@@ -289,7 +289,11 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
                     sink.abandon()
                     raise
         else:
-            fh, header, (done_status, done_regime) = checkpoint.open(resume)
+            try:
+                fh, header, (done_status, done_regime) = checkpoint.open(resume)
+            except BaseException:
+                checkpoint.release()
+                raise
             if header is not None:  # the rows a resumed run already has: counted, not answered again
                 st = np.asarray(done_status, dtype=object)
                 tally["rows"], tally["good"] = st.size, int((st == "ok").sum())
@@ -301,16 +305,18 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
                 chunks = _skip_rows(chunks, st.size, checkpoint.path)
             try:
                 write_all(_CsvSink(fh), header)
-            except KeyboardInterrupt:
+            except _errors.UsageError:  # bad input (a malformed line late in the file): its rows would
+                if not resume:          # not match the corrected file, so a fresh run leaves nothing
+                    checkpoint.discard()
+                else:
+                    checkpoint.interrupted()  # a resumed run keeps what it was given
+                raise
+            except BaseException as exc:  # interrupted or failed: the whole chunks stay for --resume
                 kept = checkpoint.interrupted()
                 if kept:
                     console.print(f"[dim]{kept}[/]")
-                raise
-            except OSError as exc:
-                checkpoint.discard()
-                raise _errors.UsageError(f"-o {args.output}: cannot write ({exc.strerror})") from None
-            except BaseException:
-                checkpoint.discard()
+                if isinstance(exc, OSError):
+                    raise _errors.UsageError(f"-o {args.output}: cannot write ({exc.strerror})") from None
                 raise
             checkpoint.finish()
     n, good = tally["rows"], tally["good"]

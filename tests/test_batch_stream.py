@@ -232,8 +232,21 @@ def test_an_interrupted_batch_keeps_its_finished_chunks_and_resumes_to_the_same_
     assert len(partial.read_text().splitlines()) == 1 + kept
     code, text, _ = run(base + ["-o", str(out)])  # a fresh start would overwrite the kept rows: refused
     assert code == 2 and "--resume" in text
+    import fcntl
+
+    with open(partial, "rb") as held:  # a run still writing holds the partial file: a second one is refused
+        fcntl.flock(held.fileno(), fcntl.LOCK_EX)
+        code, text, _ = run(base + ["-o", str(out), "--resume"])
+    assert code == 2 and "another radialpn run is writing" in text
     code, text, _ = run(["batch", str(src), "--engine", "surrogate", "--chunk-rows", "50", "-o", str(out), "--resume"])
     assert code == 2 and "another engine" in text
+    def fail_next_chunk(*a, **k):  # a failure that is not the input's (a lost cluster, say): rows kept
+        raise RuntimeError("lost the cluster")
+
+    monkeypatch.setattr(rp, "predict", fail_next_chunk)
+    code, text, _ = run(base + ["-o", str(out), "--resume"])
+    monkeypatch.setattr(rp, "predict", real)
+    assert code == 1 and f"{kept} answered rows kept" in " ".join(text.split())
     with open(partial, "ab") as fh:
         fh.write(b"GaAs,p,12,3")  # what SIGKILL may leave: part of a chunk after the recorded end
     code, text, _ = run(base + ["-o", str(out), "--resume"])
