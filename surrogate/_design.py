@@ -51,8 +51,11 @@ UNITS = {
     "energy": {"": 1.0, "ev": 1.0, "mev": 1e-3, "v": 1.0},
     "temperature": {"": 1.0, "k": 1.0},
 }
-#: a number: ASCII decimal or exponent form (no NaN, no infinity, no digit separators)
-_NUM = r"[-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
+#: a number: ASCII decimal or exponent form (no NaN, no infinity, no digit separators). Written
+#: so that a string matches in one way only (digits, then an optional point with its digits):
+#: "[0-9]+\.?[0-9]*" could split "123" between its two runs, and over a whole column that
+#: ambiguity made a failing match backtrack exponentially (100 rows with one "40nm" hung batch)
+_NUM = r"[-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
 _NUMBER = re.compile(rf"[ \t]*({_NUM})[ \t]*(.*?)[ \t]*", re.ASCII | re.DOTALL)
 _PLAIN_COLUMN = re.compile(rf"(?:[ \t]*{_NUM}[ \t]*\n)*", re.ASCII)  #: a whole column of plain numbers, one per line
 _SUPERSCRIPTS = str.maketrans("⁻⁺¹²³", "-+123")  # the unit forms radialpn prints itself, e.g. cm⁻³

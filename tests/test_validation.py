@@ -221,3 +221,18 @@ def test_one_design_functions_refuse_a_list_and_huge_integers_get_a_status():
     for value in (10 ** 400, "1e400"):  # beyond the float range, as a Python int and as text
         status = radialpn.predict({**DESIGN, "core_doping_cm3": value})["status"][0]
         assert status.startswith("core_doping_cm3: expected a finite number in [1e+12, 1e+21]")
+
+
+def test_a_column_of_numbers_with_one_unit_validates_without_backtracking():
+    # the whole-column fast check is a regular expression; written ambiguously ("[0-9]+\.?[0-9]*"
+    # splits "66" two ways) it backtracked exponentially when one cell of many carried a unit,
+    # and a 100-row batch hung. Run in a fresh interpreter with a bound far above the ~0.1 s it
+    # takes (common practice: a hang detector, not a speed figure).
+    import subprocess
+    import sys
+
+    code = ("import radialpn; n = 400; d = dict(material='GaAs', core_type='p', core_radius_nm=['66'] * (n - 1) + "
+            "['40nm'], shell_thickness_nm='12', core_doping_cm3='5e18', shell_doping_cm3='1e19', dit_cm2eV='1e12'); "
+            "t = radialpn.normalize_designs(d); print((t.status == 'ok').sum(), t.values['core_radius_nm'][-1])")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert out.stdout.split() == ["400", "40.0"]
