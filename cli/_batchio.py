@@ -21,7 +21,7 @@ import radialpn
 from radialpn import INPUT_COLUMNS, normalize_designs
 
 from . import _errors
-from ._csvio import CHUNK_ROWS, atomic_text, open_table
+from ._csvio import CHUNK_ROWS, atomic_text, check_target, open_table
 from ._resume import Checkpoint
 
 
@@ -135,17 +135,6 @@ class _CsvChunk:
         return max(self.n, int(size * self.n / max(nbytes, 1)))
 
 
-def _check_target(target) -> None:
-    """``-o`` must name a file in an existing folder (checked before any work)."""
-    path = os.path.abspath(target)
-    if os.path.isdir(path):
-        raise _errors.UsageError(f"-o {target}: is a folder; name a file")
-    if os.path.exists(path) and not os.path.isfile(path):
-        raise _errors.UsageError(f"-o {target}: not a regular file; name a file in a folder you can write")
-    if not os.path.isdir(os.path.dirname(path)):
-        raise _errors.UsageError(f"-o {target}: folder {os.path.dirname(path)} does not exist")
-
-
 def _skip_rows(chunks, rows: int, partial: str):
     """``chunks`` without their first ``rows`` rows, which must end on a chunk boundary (the
     same --chunk-rows as the interrupted run, recorded with it)."""
@@ -194,7 +183,7 @@ def run_batch(args, console, out, reserved, progress_bar) -> int:
     resume = bool(getattr(args, "resume", False))
     checkpoint = None
     if args.output not in (None, "-") and not to_parquet:  # CSV file out: finished chunks survive an interrupt
-        _check_target(args.output)
+        check_target(args.output, "-o")
         checkpoint = Checkpoint(args, chunk_rows)
     elif resume:
         raise _errors.UsageError("--resume: continues an interrupted `batch -o FILE.csv` (CSV output to a file)")

@@ -199,20 +199,27 @@ def check_suffix(target, option: str, allowed: tuple) -> None:
         raise _errors.UsageError(f"{option} {target}: this writes {' or '.join(allowed)} files; name one so")
 
 
+def check_target(target, option: str) -> str:
+    """The absolute path of an output ``target``, after checking it names a file (not a folder
+    or a special file) in an existing folder: a one-line ``UsageError`` before any work."""
+    path = os.path.abspath(target)
+    if os.path.isdir(path):
+        raise _errors.UsageError(f"{option} {target}: is a folder; name a file")
+    if os.path.exists(path) and not os.path.isfile(path):
+        raise _errors.UsageError(f"{option} {target}: not a regular file; name a file in a folder you can write")
+    if not os.path.isdir(os.path.dirname(path)):
+        raise _errors.UsageError(f"{option} {target}: folder {os.path.dirname(path)} does not exist")
+    return path
+
+
 @contextlib.contextmanager
 def atomic_text(target: str, option: str, binary: bool = False):
     """Write text (bytes if ``binary``) to ``target`` all or nothing: yields a file object on a
     temporary file in the target's folder, renamed onto ``target`` when the block ends normally; on any error, Ctrl-C
     or SIGTERM the temporary file is removed and ``target`` is left as it was (on Linux the
     temporary file has no name until the end, so SIGKILL leaves nothing either)."""
-    path = os.path.abspath(target)
+    path = check_target(target, option)
     folder = os.path.dirname(path)
-    if os.path.isdir(path):
-        raise _errors.UsageError(f"{option} {target}: is a folder; name a file")
-    if os.path.exists(path) and not os.path.isfile(path):
-        raise _errors.UsageError(f"{option} {target}: not a regular file; name a file in a folder you can write")
-    if not os.path.isdir(folder):
-        raise _errors.UsageError(f"{option} {target}: folder {folder} does not exist")
     try:
         fd, tmp = _open_temp(folder)
     except OSError as exc:

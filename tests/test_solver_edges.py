@@ -292,5 +292,5 @@ def test_solver_options_are_checked(kw, field):
     # answered on a grid too coarse to mean anything (nodes=4 gave another regime) or a bare error
     w = dict(material="GaAs", core_type="p", core_radius_nm=50, shell_thickness_nm=30, core_doping_cm3=1e18,
              shell_doping_cm3=1e18, dit_cm2eV=1e12)
-    with pytest.raises(radialpn.DesignError, match=f"^{field}: .*an integer in"):
+    with pytest.raises(radialpn.DesignError, match=f"^{field}: .*a whole number in"):
         radialpn.solve(w, **kw)

@@ -23,6 +23,7 @@ import numpy as np
 
 from .._constants import K_B_EV, NM, Q
 from .._cpu import available_cores
+from .._qcommon import _check_count
 from .._depletion import prepare, row_status, outputs, solve_pcore
 from .._bulk import exact_levels
 from .._design import REGIMES, DesignTable, normalize_designs
@@ -88,15 +89,6 @@ def _physics(table: DesignTable, statistics: str, ionisation: str = "full"):
     return dict(prob=prob, sol=sol, da_ok=da_ok, kT=lv["kT"], Nv=lv["Nv"], Nc=lv["Nc"], b=prob["a"] + il,
                 y_core=lv["y_core"], y_shell=lv["y_shell"], y_int=y_int, dopants=dop, table=table,
                 incomplete=incomplete)
-
-
-def _count(field: str, value, lo: int, hi: int, also: str = "") -> int:
-    """``value`` as an int in [lo, hi], else a DesignError naming ``field`` (a float such as 400.0
-    is taken; 4.5, True or "400" are not)."""
-    ok = isinstance(value, (int, np.integer, float, np.floating)) and not isinstance(value, (bool, np.bool_))
-    if ok and float(value).is_integer() and lo <= value <= hi:
-        return int(value)
-    raise DesignError(field, f"{also}an integer in [{lo}, {hi}]", value)
 
 
 def intrinsic_level(Eg, Nv, Nc, kT, statistics: str, steps: int = 3) -> np.ndarray:
@@ -424,10 +416,14 @@ def solve(designs, statistics: str = "fermi-dirac", nodes: int = NODES, batch: i
     """
     statistics = check_statistics(statistics)
     ionisation = check_ionisation(ionisation)
-    nodes = _count("nodes", nodes, *NODES_RANGE)
-    batch = _count("batch", batch, 1, 100_000)
-    max_iter = _count("max_iter", max_iter, 1, 10_000)
-    n_jobs = -1 if n_jobs == -1 and not isinstance(n_jobs, bool) else _count("n_jobs", n_jobs, 1, 1024, "-1 or ")
+    nodes = _check_count("nodes", nodes, *NODES_RANGE)
+    batch = _check_count("batch", batch, 1, 100_000)
+    max_iter = _check_count("max_iter", max_iter, 1, 10_000)
+    if not (n_jobs == -1 and not isinstance(n_jobs, bool)):
+        try:
+            n_jobs = _check_count("n_jobs", n_jobs, 1, 1024)
+        except DesignError:
+            raise DesignError("n_jobs", "-1 (every core) or a whole number in [1, 1024]", n_jobs) from None
     if tridiagonal not in TRIDIAGONAL_METHODS:
         raise DesignError("tridiagonal", f"one of {', '.join(TRIDIAGONAL_METHODS)}", tridiagonal)
     if parallel not in PARALLEL:
