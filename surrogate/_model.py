@@ -240,11 +240,16 @@ class SurrogateModel:
             one = features_one(sub, self.statistics, self.ionisation_, bool(inc_sub[0])) if sub.n == 1 else None  # scalar
             X, da = one if one is not None else features(sub, self.statistics, self.ionisation_)
             good = np.isfinite(X).all(1) & (da["status"] == "ok")
-            forest, sl = self._forest(models)
+            # a batch's V_bi comes from its neighbours' walk (``_vbi_centre``): the centre's own
+            # V_bi trees are walked only where that cannot answer
+            lazy = "vbi" in models and sub.n > 1 and self.smooth_points > 1
+            walked = tuple(m for m in models if m != "vbi") if lazy else models
             raw = np.full((X.shape[0], self.forest_.n_outputs), np.nan)
-            part = forest.raw(X)
-            for name, where in sl.items():
-                raw[:, self.slices_[name]] = part[:, where]
+            if walked:
+                forest, sl = self._forest(walked)
+                part = forest.raw(X)
+                for name, where in sl.items():
+                    raw[:, self.slices_[name]] = part[:, where]
             sl = self.slices_
             z = raw[:, sl["regime"]] / self.temperature_
             z -= z.max(1, keepdims=True)
@@ -257,7 +262,8 @@ class SurrogateModel:
             # majority-only V_bi0 undershoots where n_i nears a doping (hot Ge, InAs)
             vbi0 = vbi0_bound(sub, da["vbi0_V"], self.statistics, self.ionisation_)
             residual = raw[:, sl["vbi"]][:, 0]  # NaN when "vbi" is not evaluated: no neighbours then
-            centre = self._vbi_centre(sub, da, residual, inc_sub) if "vbi" in models else da["vbi_V"] + residual
+            centre = self._vbi_centre(sub, da, None if lazy else residual, inc_sub, X) if "vbi" in models \
+                else da["vbi_V"] + residual
             half = self.q_gbm_by_regime_[code] * np.exp(raw[:, sl["difficulty"]][:, 0])
             vbi = np.clip(centre, 0.0, vbi0)
             names = np.array(REGIMES, dtype=object)
@@ -319,7 +325,7 @@ class SurrogateModel:
                 "ionisation": np.where(status == "ok", np.where(incomplete, "incomplete", "full"), "").astype(object),
                 **gp_cols, **prob_cols}
 
-    def _vbi_centre(self, sub: DesignTable, da: dict, residual: np.ndarray, incomplete=None) -> np.ndarray:
+    def _vbi_centre(self, sub: DesignTable, da: dict, residual, incomplete=None, X=None) -> np.ndarray:
         """V_bi before the bounds [V]: the depletion engine's V_bi plus the trees' residual [V]
         averaged over ``SMOOTH_POINTS`` designs within +-``SMOOTH_DEX`` decades of radius,
         shell, dopings and D_it (``smooth_offsets``). Trees are step functions of their inputs,
@@ -330,9 +336,14 @@ class SurrogateModel:
         jump into ``SMOOTH_POINTS`` smaller ones. Rows whose neighbours the depletion engine
         cannot answer keep the unsmoothed residual. The conformal quantiles are calibrated on
         this centre (``conformal_scores``). ``incomplete``: the rows' resolved ionisation, if
-        known (the neighbours share it: it depends on material and temperature alone)."""
+        known (the neighbours share it: it depends on material and temperature alone).
+        ``residual``: the trees' residual at each design [V], or None with ``X`` the designs'
+        features: then it is walked only for the rows that need it (no smoothing, or neighbours
+        the depletion engine cannot answer)."""
         off = smooth_offsets(self.smooth_points, self.smooth_dex)
         k, n = off.shape[0], sub.n
+        if residual is None and (k <= 1 or n <= 1):
+            residual = self.vbi_forest_.raw(X)[:, 0] if n else np.zeros(0)
         if k <= 1 or n == 0:
             return da["vbi_V"] + residual
         if n == 1 and sub.status[0] == "ok":  # one design: its neighbours in plain floats (same numbers, ~4x faster)
@@ -358,9 +369,15 @@ class SurrogateModel:
         near = DesignTable(n=n * k, material=np.tile(sub.material, k), p_core=np.tile(sub.p_core, k), values=values,
                            status=np.tile(sub.status, k))
         Xn, dan = features(near, self.statistics, self.ionisation_)
-        res = self.vbi_forest_.raw(Xn)[:, 0].reshape(k, n)
         good = (np.isfinite(Xn).all(1) & (dan["status"] == "ok")).reshape(k, n).all(0)
-        return da["vbi_V"] + np.where(good, res.mean(0), residual)
+        res = np.full(n, np.nan)
+        if good.any():
+            g = np.flatnonzero(good)
+            res[g] = self.vbi_forest_.raw_smoothed(Xn.reshape(k, n, -1)[:, g, :])[:, 0]
+        if not good.all():
+            bad = np.flatnonzero(~good)
+            res[bad] = residual[bad] if X is None else self.vbi_forest_.raw(X[bad])[:, 0]
+        return da["vbi_V"] + res
 
     def conformal_scores(self, designs, vbi_V) -> dict:
         """Calibration scores of designs whose true ``vbi_V`` [V] is known (solver answers):

@@ -135,6 +135,37 @@ def test_binned_walk_gives_the_plain_walks_leaves():
         np.testing.assert_allclose(ens.raw(X, n_threads=2), ens.raw_numpy(X), rtol=0, atol=1e-12)
 
 
+def test_smoothed_walk_is_the_mean_of_the_neighbours_walks():
+    # raw_smoothed walks a tree once where all k points of a row share its leaf and k times
+    # where their box straddles a threshold: the same leaves as k separate walks, so the same
+    # mean up to the order of the additions, 1e-12 absolute (sums of <= 200 leaves of order 1).
+    # Boxes of three widths (none, about the V_bi smoothing's, wide: most pairs straddle),
+    # corners exactly on thresholds (x == t goes left), and enough rows for two threads.
+    from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
+
+    from radialpn._trees import THREAD_MIN_ROWS
+
+    rng = np.random.default_rng(5)
+    X = rng.normal(size=(4000, 6))
+    y = X[:, 0] * X[:, 1] + np.sin(3 * X[:, 2]) + 0.1 * rng.normal(size=4000)
+    reg = HistGradientBoostingRegressor(max_iter=60, max_leaf_nodes=127, max_depth=12).fit(X, y)
+    clf = HistGradientBoostingClassifier(max_iter=15, max_leaf_nodes=63).fit(X, np.digitize(y, [-1, 0, 1]))
+    n, k = THREAD_MIN_ROWS + 300, 9
+    for est in (reg, clf):
+        ens = TreeEnsemble(export_hgb(est))
+        inner = np.flatnonzero(ens.left != np.arange(ens.feature.size))
+        centre = rng.normal(size=(n, 6))
+        pick = rng.choice(inner, n)
+        centre[np.arange(n), ens.feature[pick]] = ens.threshold[pick]
+        for width in (0.0, 0.01, 0.5):
+            Xk = centre + width * rng.uniform(-1, 1, size=(k, n, 6))
+            Xk[0] = centre  # the centre itself, on a threshold, is one of the k points
+            want = np.mean([ens.raw_numpy(Xk[j]) for j in range(k)], axis=0)
+            for rows, nt in ((slice(0, 5), 1), (slice(0, 300), 1), (slice(None), 2)):
+                got = ens.raw_smoothed(Xk[:, rows, :], n_threads=nt)
+                np.testing.assert_allclose(got, want[rows], rtol=0, atol=1e-12)
+
+
 @pytest.mark.parametrize("where", [0, -1])
 def test_progress_chunks_keep_every_engines_columns(where):
     # A call long enough for progress reports is answered in chunks; under auto only the chunk
