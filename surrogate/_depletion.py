@@ -360,13 +360,16 @@ CHUNK_ROWS = 1 << 16  #: rows per work unit: keeps temporaries in cache
 MAX_THREADS = 256  #: the most worker threads ``deplete`` takes
 
 
-def deplete_table(table: DesignTable, statistics: str, ionisation: str = "full", validity: bool = True) -> dict:
+def deplete_table(table: DesignTable, statistics: str, ionisation: str = "full", validity: bool = True,
+                  mat: dict | None = None) -> dict:
     """``deplete`` on a validated table. ``validity=False`` leaves out the limits of ``_validity``
-    (the surrogate's features keep their definition, ``FEATURES_VERSION``)."""
+    (the surrogate's features keep their definition, ``FEATURES_VERSION``). ``mat``: the table's
+    ``material_arrays`` when the caller has them already."""
     incomplete, refused, dopants = row_dopants(table, ionisation)
     if refused is not None:
         table = DesignTable(table.n, table.material, table.p_core, table.values, refused)
-    mat = material_arrays(table.material, table.values["temperature_K"], statistics)
+    if mat is None:
+        mat = material_arrays(table.material, table.values["temperature_K"], statistics)
     prob, cnl = prepare(table, statistics, dopants if incomplete.any() else None, mat=mat)
     with np.errstate(all="ignore"):
         sol = solve_pcore(**prob)

@@ -193,6 +193,13 @@ def categories(raw, n):
         v = raw.item() if isinstance(raw, np.ndarray) else raw
         return ["" if type(v).__name__ == "NAType" else v], np.zeros(n, dtype=np.intp)
     arr = np.asarray(raw)
+    if arr.dtype == object and arr.size and type(arr.flat[0]) is str:  # the usual column: one name throughout
+        try:
+            same = arr == arr.flat[0]
+        except (TypeError, ValueError):  # an element whose == is not a plain bool (pandas' NA)
+            same = None
+        if isinstance(same, np.ndarray) and same.dtype == bool and same.all():
+            return [arr.flat[0]], np.zeros(n, dtype=np.intp)
     if arr.dtype == object:  # compare as text: None, NaN and pandas' NA do not compare equal to themselves
         arr = np.array([v if isinstance(v, str) else repr(v) if isinstance(v, float) else str(v)
                         for v in arr.tolist()], dtype=object)

@@ -31,9 +31,9 @@ def features(table: DesignTable, statistics: str = "fermi-dirac", ionisation: st
     ionisation model of the depletion engine, the one the bundle's training set was solved with
     ("full", or "auto": incomplete where ``_ionisation`` turns it on)."""
     # features as defined before the validity limits
-    da = deplete_table(table, statistics, ionisation=ionisation, validity=False)
     v = table.values
     mat = material_arrays(table.material, v["temperature_K"], statistics)
+    da = deplete_table(table, statistics, ionisation=ionisation, validity=False, mat=mat)
     a, t = v["core_radius_nm"], v["shell_thickness_nm"]
     na, nd = v["core_doping_cm3"], v["shell_doping_cm3"]
     cnl = np.where(np.isnan(v["cnl_eV"]), mat["cnl_eV"], v["cnl_eV"])
