@@ -91,6 +91,7 @@ def main(argv=None, console=None, out=None, stdin=None) -> int:
         if args.version:
             out.write(f"radialpn {radialpn.__version__}\n")
             return _errors.OK
+        radialpn.worker_threads()  # a malformed RADIALPN_THREADS stops here, before any work
         for path in args.materials:
             for m in radialpn.load_material_file(path):
                 radialpn.register_material(m)

@@ -33,7 +33,7 @@ from ._design import (
     normalize_designs, parse_quantity,
 )
 from ._engines import DEFAULT_ENGINE, ENGINES
-from ._errors import DesignError, MaterialError, RadialpnError
+from ._errors import DesignError, MaterialError, RadialpnError, SettingError
 from ._frames import like_input as _like_input
 from ._materials import (
     Material, get_material, load_material_file, material_from_dict, material_names, mott_density,
@@ -138,6 +138,6 @@ __all__ = [
     "IONISATION", "IONISATION_AUTO_BELOW_K", "IONISATION_DEEP_EV", "mott_density",
     "CORE_TYPES", "INPUT_COLUMNS", "OUTPUT_COLUMNS", "NUMERIC_COLUMNS", "REGIMES", "STATISTICS", "ENGINES",
     "DEFAULT_ENGINE", "TUNNEL_RISK_LOG10", "worker_threads",
-    "RadialpnError", "DesignError", "MaterialError", "BundleError",
+    "RadialpnError", "DesignError", "MaterialError", "SettingError", "BundleError",
     "__version__",
 ]

@@ -432,7 +432,7 @@ def deplete(designs, statistics: str = "fermi-dirac", threads: int | None = None
         return deplete_table(table, statistics, ionisation)
     parts = [slice(i, min(i + CHUNK_ROWS, table.n)) for i in range(0, table.n, CHUNK_ROWS)]
     work = lambda sl: deplete_table(table.take(sl), statistics, ionisation)  # noqa: E731
-    nthreads = worker_threads(threads)
+    nthreads = threads if threads is not None else worker_threads()
     if nthreads > 1:
         with ThreadPoolExecutor(nthreads) as pool:
             results = list(pool.map(work, parts))

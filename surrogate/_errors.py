@@ -20,6 +20,11 @@ class DesignError(RadialpnError, ValueError):
         super().__init__(f"{field}: {message}" + ("" if value is None else f" (got {value!r})"))
 
 
+class SettingError(RadialpnError, ValueError):
+    """A setting (a keyword argument or environment variable that is not a design field)
+    outside its allowed range; the message names it, the range and the value given."""
+
+
 class MaterialError(RadialpnError, KeyError):
     """Unknown material, or a malformed material file."""
 

@@ -21,12 +21,14 @@ releases the interpreter lock in the gathers); nothing inside a chunk runs in pa
 
 from __future__ import annotations
 
+import operator
 import os
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
 from ._cpu import available_cores
+from ._errors import SettingError
 
 NUMPY_CHUNK = 1 << 17  #: rows x trees per numpy step of the plain walk
 WALK_CHUNK = 256  #: rows per step (and per thread work unit) of the binned walk: (rows, trees) node arrays stay in L2
@@ -44,13 +46,29 @@ def threads(explicit: int | None = None) -> int:
     $OMP_NUM_THREADS, else the number of cores this process may run on (its CPU affinity), at
     most ``MAX_THREADS``. One thread per chunk of ``WALK_CHUNK`` rows, taken from a shared queue;
     nothing inside a chunk runs in parallel, so the threads never exceed that count and a
-    thread slowed by another process holds up no other (no barrier between chunks)."""
-    for value in (explicit, os.environ.get("RADIALPN_THREADS"), os.environ.get("OMP_NUM_THREADS")):
-        try:
-            if value is not None and int(value) >= 1:
-                return min(int(value), MAX_THREADS)
-        except (TypeError, ValueError):
+    thread slowed by another process holds up no other (no barrier between chunks).
+
+    ``explicit`` and $RADIALPN_THREADS must be whole numbers >= 1 (``SettingError`` otherwise;
+    an empty variable counts as unset).
+    $OMP_NUM_THREADS belongs to every OpenMP program of the process: its first entry is used
+    ("4,2", OpenMP's nested form, gives 4) and a value that is not a whole number >= 1 is
+    passed over, as OpenMP runtimes pass over it."""
+    for name, value in (("threads", explicit), ("RADIALPN_THREADS", os.environ.get("RADIALPN_THREADS"))):
+        if value is None or (name != "threads" and not value.strip()):  # an empty variable counts as unset
             continue
+        if isinstance(value, str):
+            count = int(value.strip()) if value.strip().isdigit() else 0
+        else:
+            try:
+                count = 0 if isinstance(value, bool) else operator.index(value)
+            except TypeError:
+                count = 0
+        if count < 1:
+            raise SettingError(f"{name}: must be a whole number of threads >= 1 (got {value!r})")
+        return min(count, MAX_THREADS)
+    omp = os.environ.get("OMP_NUM_THREADS", "").split(",")[0].strip()
+    if omp.isdigit() and int(omp) >= 1:
+        return min(int(omp), MAX_THREADS)
     return max(1, min(available_cores(), MAX_THREADS))
 
 

@@ -59,6 +59,26 @@ def test_unknown_flag_one_line():
     assert code == 2 and text.startswith("radialpn: error: unrecognized arguments") and text.count("\n") == 1
 
 
+@pytest.mark.parametrize("value", ["abc", "0", "-2", "1.5", "2 threads"])
+def test_malformed_thread_count_is_one_line_before_any_work(monkeypatch, value):
+    # RADIALPN_THREADS is ours: a value that is not a whole number >= 1 is refused, never
+    # replaced by a default; OMP_NUM_THREADS is every OpenMP program's, whose runtimes pass
+    # over an unusable value and read the first entry of a nested list ("3,1")
+    monkeypatch.setenv("RADIALPN_THREADS", value)
+    code, text, _ = run(ASK)
+    assert code == 2 and text.count("\n") == 1
+    assert "RADIALPN_THREADS: must be a whole number of threads >= 1" in text and repr(value) in text
+    monkeypatch.setenv("RADIALPN_THREADS", "")  # empty counts as unset, as shells clear a variable
+    assert run(ASK)[0] == 0
+    monkeypatch.delenv("RADIALPN_THREADS")
+    with pytest.raises(radialpn.SettingError, match="threads: must be a whole number"):
+        radialpn.worker_threads(0)
+    monkeypatch.setenv("OMP_NUM_THREADS", "3,1")
+    assert radialpn.worker_threads() == 3
+    monkeypatch.setenv("OMP_NUM_THREADS", "abc")
+    assert radialpn.worker_threads() >= 1 and run(ASK)[0] == 0
+
+
 def test_no_answer_exit_3():
     code, text, _ = run(["ask", "--material", "InAs", "--core-type", "p", "--core-radius", "50", "--shell-thickness",
                          "30", "--core-doping", "1e17", "--shell-doping", "1e17", "--dit", "1e12", "--engine", "depletion"])
