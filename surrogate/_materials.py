@@ -15,6 +15,7 @@ Users add materials from a TOML or JSON file (see ``load_material_file``), or th
 from __future__ import annotations
 
 import os
+import threading
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -200,16 +201,25 @@ _BUILTIN_NAMES = frozenset(_registry)
 T_RANGE_K = (20.0, 1000.0)  #: the design table's temperature range, over which E_g must stay positive
 _NAME = __import__("re").compile(r"[A-Za-z][A-Za-z0-9_.()+-]{0,39}")
 _env_loaded = False
+_env_loading = False
+_ENV_LOCK = threading.RLock()
 
 
 def _load_env_files() -> None:
-    global _env_loaded
+    global _env_loaded, _env_loading
     if _env_loaded:
         return
-    _env_loaded = True
-    for p in filter(None, os.environ.get("RADIALPN_MATERIALS", "").split(os.pathsep)):
-        for m in load_material_file(p):
-            register_material(m)
+    with _ENV_LOCK:  # another thread waits here until the files are read
+        if _env_loaded or _env_loading:  # loading looks names up: the loading thread re-enters
+            return
+        _env_loading = True
+        try:
+            for p in filter(None, os.environ.get("RADIALPN_MATERIALS", "").split(os.pathsep)):
+                for m in load_material_file(p):
+                    register_material(m)
+        finally:
+            _env_loading = False
+            _env_loaded = True  # a bad file is reported once, as before, not on every lookup
 
 
 def get_material(name: str) -> Material:

@@ -13,6 +13,8 @@ over the table (checked against scipy.integrate.quad in tests/test_statistics.py
 
 from __future__ import annotations
 
+import threading
+
 import numpy as np
 
 ETA_LO = -30.0  #: below this, the two-term non-degenerate series is used [1]
@@ -26,6 +28,9 @@ _NEWTON_STOP = 1e-6  #: a Newton step below this leaves an error ~ step^2 < INVE
 _SQRT_PI = np.sqrt(np.pi)
 TABLE_BLOCK = 256  #: table nodes computed together, each block on first use (a query touches a few)
 INVERSE_BLOCK = 32  #: inverse-table nodes computed together (a block of ln y may span many eta nodes)
+#: guards the creation of the lazily built tables (threads of one batch share them; a block
+#: computed twice by two threads gets the same numbers, so the blocks themselves need no lock)
+_INIT_LOCK = threading.Lock()
 _forward = None  # eta nodes, ln F_1/2, d ln F_1/2 / d eta (NaN until their block is computed), done blocks
 _inverse = None  # the same for eta against ln F_1/2 on a uniform ln y grid
 INVERSE_STEP = 0.02  #: spacing in ln F_1/2 of the inverse table [1]
@@ -35,9 +40,11 @@ _quad = None  # quadrature points t and weights of the table's Gauss-Legendre ru
 def _forward_table() -> dict:
     global _forward
     if _forward is None:
-        eta = np.arange(ETA_LO, ETA_HI + TABLE_STEP / 2, TABLE_STEP)
-        _forward = dict(eta=eta, lnf=np.full(eta.size, np.nan), dlnf=np.full(eta.size, np.nan),
-                        done=np.zeros(-(-eta.size // TABLE_BLOCK), dtype=bool))
+        with _INIT_LOCK:  # two threads must not each make (and one then replace) the table
+            if _forward is None:
+                eta = np.arange(ETA_LO, ETA_HI + TABLE_STEP / 2, TABLE_STEP)
+                _forward = dict(eta=eta, lnf=np.full(eta.size, np.nan), dlnf=np.full(eta.size, np.nan),
+                                done=np.zeros(-(-eta.size // TABLE_BLOCK), dtype=bool))
     return _forward
 
 
@@ -155,9 +162,11 @@ def _inverse_table() -> dict:
         k = tab["eta"].size - 1
         _ensure_forward(0, 0)
         _ensure_forward(k, k)
-        g = np.arange(tab["lnf"][0], tab["lnf"][k], INVERSE_STEP)
-        _inverse = dict(g=g, g0=g[0], step=INVERSE_STEP, eta=np.full(g.size, np.nan), deta=np.full(g.size, np.nan),
-                        done=np.zeros(-(-g.size // INVERSE_BLOCK), dtype=bool))
+        with _INIT_LOCK:
+            if _inverse is None:
+                g = np.arange(tab["lnf"][0], tab["lnf"][k], INVERSE_STEP)
+                _inverse = dict(g=g, g0=g[0], step=INVERSE_STEP, eta=np.full(g.size, np.nan),
+                                deta=np.full(g.size, np.nan), done=np.zeros(-(-g.size // INVERSE_BLOCK), dtype=bool))
     return _inverse
 
 

@@ -66,3 +66,37 @@ def test_intrinsic_density_handbook(material, handbook):
     m = get_material(material)
     ni = intrinsic_density(m.band_gap(300.0), m.nc(300.0), m.nv(300.0), 300.0)
     assert abs(ni / handbook - 1.0) < 0.35
+
+
+def test_lazy_tables_are_built_once_when_threads_race(monkeypatch):
+    # The Fermi-Dirac tables are built on first use; threads of one batch (predict's chunks,
+    # deplete's threads) may all make that first use at once. Each of 6 threads starting
+    # together on fresh tables must get the answer of the serial reference to 1e-12 relative
+    # (the same table nodes), 10 times over; before the tables' creation was locked, one
+    # thread could replace the table another was filling and fail on its NaN nodes.
+    import threading
+
+    from radialpn import _statistics
+
+    y = np.logspace(-8, 3, 2000)
+    want = fermi_half_inverse(y)
+    for _ in range(10):
+        monkeypatch.setattr(_statistics, "_forward", None)
+        monkeypatch.setattr(_statistics, "_inverse", None)
+        start, got, errors = threading.Barrier(6), [None] * 6, []
+
+        def work(i):
+            start.wait()
+            try:
+                got[i] = fermi_half_inverse(y)
+            except Exception as exc:  # noqa: BLE001 - collected and reported below
+                errors.append(repr(exc))
+
+        pool = [threading.Thread(target=work, args=(i,)) for i in range(6)]
+        for t in pool:
+            t.start()
+        for t in pool:
+            t.join()
+        assert not errors, errors[0]
+        for g in got:
+            np.testing.assert_allclose(g, want, rtol=1e-12, atol=0)
