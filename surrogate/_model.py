@@ -9,6 +9,7 @@ bundle's trained domain are flagged and get no numbers (never extrapolated).
 from __future__ import annotations
 
 import os
+from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
@@ -19,13 +20,17 @@ from ._features import DIT_FLOOR, FEATURE_NAMES, FEATURES_VERSION, features
 from ._ionisation import check_ionisation, row_dopants
 from ._gp import GaussianProcess
 from ._single import feature_row, features_one, one_design
-from ._trees import TreeEnsemble
+from ._trees import TreeEnsemble, serial, threads
 
 #: regime probability below which a design is flagged for the solver (``--confirm`` re-answers it).
 #: 0.99: on 4,000 fresh solver runs per bundle (seed 424242 + k, none it was fitted, calibrated
 #: or validated on) the regime was wrong on 6-30 rows per bundle; 0.9 left 1-4 of them unflagged,
 #: 0.99 left 0-2 (1.3-8.9 % of designs flagged in all, against 0.5-7.6 %); the validation
 #: report's ``confirm_*`` figures give the result on the validation seed
+#: rows per chunk of a large ``predict``: chunks run whole, one per worker thread, so the
+#: depletion features (vectorised numpy, which releases the interpreter lock) share the cores
+#: too and memory stays bounded (~1 kB per row with the V_bi smoothing's neighbours)
+PREDICT_CHUNK = 8192
 CONFIRM_PROB = 0.99
 #: a design whose 95 % interval (after the bounds) is wider than +- this is flagged for the solver
 #: (issue 5's 99th-percentile error target): by itself it flags 0-6 % of uniform designs of
@@ -207,6 +212,9 @@ class SurrogateModel:
         """
         models = _needed(models, second_opinion)
         table = designs if isinstance(designs, DesignTable) else (one_design(designs) or normalize_designs(designs))
+        nt = threads()
+        if table.n >= 2 * PREDICT_CHUNK and nt > 1:
+            return self._predict_split(table, nt, second_opinion, class_probs, models, ionisation)
         if ionisation is not None:
             ionisation = check_ionisation(ionisation)
             refused = row_dopants(table, ionisation)[1]  # "incomplete" for a material without dopant levels
@@ -324,6 +332,23 @@ class SurrogateModel:
                 "confirm_with_solver": confirm,
                 "ionisation": np.where(status == "ok", np.where(incomplete, "incomplete", "full"), "").astype(object),
                 **gp_cols, **prob_cols}
+
+    def _predict_split(self, table: DesignTable, nt: int, *args) -> dict:
+        """``predict`` of a large table as chunks of about ``PREDICT_CHUNK`` rows over ``nt``
+        threads (each chunk whole in one thread: ``serial``), joined in row order. Every row's
+        answer is its own (nothing in ``predict`` couples rows), so the same numbers as one
+        call, and memory bounded by ``nt`` chunks (the V_bi smoothing's neighbours are 8 rows a
+        design). Chunks are of equal size, never one row (the single-design path)."""
+        parts = -(-table.n // PREDICT_CHUNK)
+        edges = np.linspace(0, table.n, parts + 1).astype(np.intp)
+
+        def work(i):
+            with serial():
+                return self.predict(table.take(slice(edges[i], edges[i + 1])), *args)
+
+        with ThreadPoolExecutor(min(nt, parts)) as pool:
+            done = list(pool.map(work, range(parts)))
+        return {k: np.concatenate([d[k] for d in done]) for k in done[0]}
 
     def _vbi_centre(self, sub: DesignTable, da: dict, residual, incomplete=None, X=None) -> np.ndarray:
         """V_bi before the bounds [V]: the depletion engine's V_bi plus the trees' residual [V]

@@ -23,6 +23,8 @@ from __future__ import annotations
 
 import operator
 import os
+import threading
+from contextlib import contextmanager
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
@@ -41,6 +43,22 @@ MAX_THREADS = 8
 MAX_DEPTH = 64  #: deepest tree a bundle may hold (the fitted ones are at most 12 deep)
 
 
+_SERIAL = threading.local()  #: set inside a worker of an outer row split: nested calls stay in their thread
+
+
+@contextmanager
+def serial():
+    """Within this block ``threads()`` is 1 in the calling thread: the worker of an outer split
+    of rows (``SurrogateModel.predict``'s chunks) starts no pool of its own, so the threads
+    never exceed the outer count."""
+    before = getattr(_SERIAL, "on", False)
+    _SERIAL.on = True
+    try:
+        yield
+    finally:
+        _SERIAL.on = before
+
+
 def threads(explicit: int | None = None) -> int:
     """Worker threads for large surrogate batches: ``explicit``, else $RADIALPN_THREADS, else
     $OMP_NUM_THREADS, else the number of cores this process may run on (its CPU affinity), at
@@ -48,11 +66,13 @@ def threads(explicit: int | None = None) -> int:
     nothing inside a chunk runs in parallel, so the threads never exceed that count and a
     thread slowed by another process holds up no other (no barrier between chunks).
 
-    ``explicit`` and $RADIALPN_THREADS must be whole numbers >= 1 (``SettingError`` otherwise;
+    Inside ``serial()`` it is 1. ``explicit`` and $RADIALPN_THREADS must be whole numbers >= 1 (``SettingError`` otherwise;
     an empty variable counts as unset).
     $OMP_NUM_THREADS belongs to every OpenMP program of the process: its first entry is used
     ("4,2", OpenMP's nested form, gives 4) and a value that is not a whole number >= 1 is
     passed over, as OpenMP runtimes pass over it."""
+    if getattr(_SERIAL, "on", False):
+        return 1
     for name, value in (("threads", explicit), ("RADIALPN_THREADS", os.environ.get("RADIALPN_THREADS"))):
         if value is None or (name != "threads" and not value.strip()):  # an empty variable counts as unset
             continue
