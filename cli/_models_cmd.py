@@ -11,7 +11,7 @@ from rich.table import Table
 import radialpn
 
 from . import _errors
-from ._csvio import atomic_text
+from ._csvio import atomic_text, check_target
 
 
 def _bundle_path(name_or_path: str) -> Path:
@@ -147,6 +147,8 @@ def cmd_validate(args, console, out) -> int:
 
     if args.rows < 100:
         raise _errors.UsageError(f"--rows: allowed range [100, 10000000] (got {args.rows})")
+    if args.report:  # a path that cannot be written is refused before minutes of solver runs
+        check_target(args.report, "-o/--report")
     path = _bundle_path(args.bundle)
     with console.status(f"solving {args.rows:,} fresh designs and comparing…"):
         v = validate_bundle(path, rows=args.rows, seed=args.seed, write=False)
@@ -176,7 +178,7 @@ def cmd_validate(args, console, out) -> int:
         conf.add_row(lab, *map(str, row))
     console.print(conf)
     if args.report:
-        with atomic_text(args.report, "--report") as fh:
+        with atomic_text(args.report, "-o/--report") as fh:
             fh.write(json.dumps(v, indent=1, sort_keys=True) + "\n")
         console.print(f"[dim]report written to {args.report}; the bundle itself is unchanged[/]")
     return _errors.OK

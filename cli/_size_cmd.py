@@ -272,6 +272,8 @@ def cmd_search(args, console, out) -> int:
     vary = {}
     for spec in args.vary:
         col, lo, hi = axis_spec(spec, "--vary")
+        if col in vary:
+            raise _errors.UsageError(f"--vary: {col} is given twice (got {spec!r}); give each free variable once")
         vary[col] = (lo, hi)
         fixed.pop(col, None)
     if not vary:

@@ -43,7 +43,10 @@ def _spreads(texts) -> dict:
             raise _errors.UsageError(f"--spread: expected NAME=SIZE[%][,uniform], e.g. shell-thickness=2nm or dit=50% "
                                      f"(got {text!r})")
         name, rest = text.split("=", 1)
-        out[column(name, "--spread")] = rest
+        col = column(name, "--spread")
+        if col in out:
+            raise _errors.UsageError(f"--spread: {col} is given twice (got {text!r}); give each spread once")
+        out[col] = rest
     if not out:
         raise _errors.UsageError("--spread: give at least one, e.g. --spread shell-thickness=2nm --spread dit=50%")
     return out

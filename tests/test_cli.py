@@ -278,6 +278,9 @@ def test_validate_never_changes_the_shipped_bundle(tmp_path):
     assert code == 0 and "regime accuracy" in text and "confusion" in text
     assert json.loads(report.read_text())["rows"] == 300
     assert {f: (path / f).read_bytes() for f in before} == before
+    # a report path that cannot be written is refused at once, not after the solver runs
+    code, text, _ = run(["validate", "gaas-pcore", "--rows", "300", "-o", str(tmp_path / "no" / "r.json")])
+    assert code == 2 and text.count("\n") == 1 and "-o/--report" in text and "does not exist" in text
 
 
 def test_each_command_loads_its_own_module_only():

@@ -49,6 +49,18 @@ def test_map_bad_axis_one_line():
     assert code == 2 and "--x: unknown variable 'wire-colour'" in text and text.count("\n") == 1
 
 
+@pytest.mark.parametrize("argv,fragment", [
+    (["search"] + PLAN + ["--vary", "shell-thickness:2nm:100nm", "--vary", "shell-thickness:5nm:50nm",
+                          "--minimize", "shell-thickness"], "--vary: shell_thickness_nm is given twice"),
+    (["spread"] + PLAN + ["--spread", "dit=50%", "--spread", "dit=10%"], "--spread: dit_cm2eV is given twice"),
+])
+def test_an_option_given_twice_for_one_variable_is_refused(argv, fragment):
+    # repeated options name different variables; the same one twice would have kept the last
+    # silently (common practice: a conflicting request is an error, not a guess)
+    code, text, _ = run(argv)
+    assert code == 2 and fragment in text and text.count("\n") == 1
+
+
 def test_size_critical_shell_confirmed_by_solver():
     # Definition: the thinnest shell from which on V_bi >= 90 % V_bi0. The reference solver
     # (independent of the surrogate) must meet the target 1 nm above the surrogate's answer and
